@@ -1,0 +1,7 @@
+export function loader() {
+  throw new Response("There is nothing at this address.", { status: 404 });
+}
+
+export default function NotFound() {
+  return null;
+}
