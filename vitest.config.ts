@@ -6,6 +6,8 @@ export default defineConfig({
   resolve: { tsconfigPaths: true },
   test: {
     include: ["tests/**/*.test.ts", "tests/**/*.test.tsx"],
+    globalSetup: ["tests/support/global-setup.ts"],
+    setupFiles: ["tests/support/no-console-errors.ts"],
     testTimeout: 30_000,
     hookTimeout: 60_000,
   },

@@ -110,6 +110,11 @@ export async function getDb(): Promise<Database> {
   return (await getDatabase()).db;
 }
 
+/** Makes `open` the process-wide database (tests give each file its own copy). */
+export function setDatabase(open: OpenDatabase): void {
+  current = Promise.resolve(open);
+}
+
 /** Closes the process-wide database (tests, shutdown). */
 export async function closeDatabase(): Promise<void> {
   const open = current;
