@@ -1,7 +1,7 @@
 /**
  * The data layer behaves the same on embedded PGlite and on a PostgreSQL server.
- * The server run needs TEST_DATABASE_URL (set by .ci/run, which starts Debian's PostgreSQL 15);
- * under CI its absence is a failure, not a skip.
+ * The server run uses the PostgreSQL 15 server that tests/support/global-setup.ts starts from Debian's
+ * packages (installed by tests/support/prepare.sh); under CI its absence is a failure, not a skip.
  */
 import { spawn } from "node:child_process";
 import { mkdtempSync, rmSync, writeFileSync } from "node:fs";
@@ -17,7 +17,7 @@ const kinds: TestDatabaseKind[] = ["pglite"];
 if (postgresConfigured()) kinds.push("postgres");
 
 it("runs against a PostgreSQL server in CI", () => {
-  if (process.env.CI) expect(postgresConfigured(), "CI must set TEST_DATABASE_URL").toBe(true);
+  if (process.env.CI) expect(postgresConfigured(), "CI must have a PostgreSQL server for the data-layer tests").toBe(true);
 });
 
 describe.each(kinds)("data layer on %s", (kind) => {

@@ -2,8 +2,8 @@
  * Gives a test file its own migrated database and makes it the app's `getDb()`.
  *
  * PGlite (default): a copy of the template prepared once per run in global-setup.ts.
- * PostgreSQL server: `useTestDatabase({ kind: "postgres" })` creates a fresh database on the server at
- * TEST_DATABASE_URL (started by .ci/run), migrates it, and drops it afterwards.
+ * PostgreSQL server: `useTestDatabase("postgres")` creates a fresh database on the server that
+ * global-setup.ts started (or TEST_DATABASE_URL), migrates it, and drops it afterwards.
  */
 import { cpSync, mkdtempSync, rmSync } from "node:fs";
 import os from "node:os";
@@ -18,15 +18,15 @@ export interface TestDatabase {
   readonly open: OpenDatabase;
 }
 
-/** Whether a PostgreSQL server is configured for tests; CI always sets one. */
+/** Whether a PostgreSQL server is available to the tests (global-setup.ts starts one when it can). */
 export function postgresConfigured(): boolean {
-  return Boolean(process.env.TEST_DATABASE_URL);
+  return Boolean(inject("postgresUrl"));
 }
 
 export async function createTestDatabase(kind: TestDatabaseKind = "pglite"): Promise<{ open: OpenDatabase; dispose(): Promise<void> }> {
   if (kind === "postgres") {
-    const serverUrl = process.env.TEST_DATABASE_URL;
-    if (!serverUrl) throw new Error("TEST_DATABASE_URL is not set: start a PostgreSQL server (see .ci/run).");
+    const serverUrl = inject("postgresUrl");
+    if (!serverUrl) throw new Error("No PostgreSQL server for tests: install Debian's postgresql (tests/support/prepare.sh does).");
     const { Client } = (await import("pg")).default;
     const name = `equilibra_test_${process.pid}_${Math.random().toString(36).slice(2, 10)}`;
     const admin = new Client({ connectionString: serverUrl });
