@@ -266,6 +266,9 @@ export const periods = pgTable(
     weeks: doublePrecision("weeks").notNull(),
     demandFactor: doublePrecision("demand_factor").notNull().default(1),
     teamsFactor: doublePrecision("teams_factor").notNull().default(1),
+    /** The exchange format also allows factors per service line; when set, these maps replace the single factors above. */
+    demandFactorByLine: jsonb("demand_factor_by_line").$type<Record<string, number>>(),
+    teamsFactorByLine: jsonb("teams_factor_by_line").$type<Record<string, number>>(),
     position: integer("position").notNull().default(0),
   },
   (t) => [primaryKey({ columns: [t.scenarioId, t.code] })],
@@ -315,4 +318,45 @@ export const regionMaps = pgTable("region_maps", {
     .primaryKey()
     .references(() => organisations.id, { onDelete: "cascade" }),
   geojson: jsonb("geojson").$type<Record<string, unknown>>().notNull(),
+});
+
+// ---------------------------------------------------------------------------------------------
+// Billing: a mirror of each organisation's Stripe subscription, and the Stripe events handled
+// ---------------------------------------------------------------------------------------------
+
+/**
+ * One row per organisation that has started checkout: its Stripe customer and, once subscribed,
+ * the subscription's state as last read from Stripe. Stripe stays the source of truth; this copy
+ * lets every request check plan limits without calling Stripe.
+ */
+export const subscriptions = pgTable("subscriptions", {
+  organisationId: integer("organisation_id")
+    .primaryKey()
+    .references(() => organisations.id, { onDelete: "cascade" }),
+  stripeCustomerId: text("stripe_customer_id").notNull().unique(),
+  stripeSubscriptionId: text("stripe_subscription_id").unique(),
+  /** Our plan key (app/services/plans.ts), from the price's lookup key. */
+  planKey: text("plan_key"),
+  stripePriceId: text("stripe_price_id"),
+  /** Stripe's subscription status: active, past_due, canceled, incomplete, … */
+  status: text("status"),
+  currentPeriodStart: timestamp("current_period_start", { withTimezone: true }),
+  currentPeriodEnd: timestamp("current_period_end", { withTimezone: true }),
+  cancelAtPeriodEnd: boolean("cancel_at_period_end").notNull().default(false),
+  endedAt: timestamp("ended_at", { withTimezone: true }),
+  /** When the subscription first became past_due in its current spell; starts the grace period. */
+  pastDueSince: timestamp("past_due_since", { withTimezone: true }),
+  /** When this copy was read from Stripe: an older read never overwrites a newer one. */
+  syncedAt: timestamp("synced_at", { withTimezone: true }),
+  createdAt: createdAt(),
+});
+
+/** Stripe events already handled, by event id: a redelivered event is acknowledged and skipped. */
+export const stripeEvents = pgTable("stripe_events", {
+  id: text("id").primaryKey(),
+  type: text("type").notNull(),
+  /** What handling did: "applied", "ignored", "unknown_customer", … */
+  outcome: text("outcome").notNull(),
+  organisationId: integer("organisation_id").references(() => organisations.id, { onDelete: "set null" }),
+  receivedAt: timestamp("received_at", { withTimezone: true }).notNull().defaultNow(),
 });
