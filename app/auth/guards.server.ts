@@ -8,7 +8,14 @@
  */
 import { redirect } from "react-router";
 import type { Role } from "~/db/schema";
-import { getMembership, getOrganisationBySlug, ROLE_LABELS, type Membership, type Organisation } from "~/models/organisations.server";
+import {
+  getMembership,
+  getOrganisationBySlug,
+  listOrganisationsForUser,
+  ROLE_LABELS,
+  type Membership,
+  type Organisation,
+} from "~/models/organisations.server";
 import { getUserById, type User } from "~/models/users.server";
 import { forbidden, notFound } from "./http-errors";
 import { destroySession, getSession, getSessionUserId, SESSION_COOKIE_NAME } from "./session.server";
@@ -61,4 +68,10 @@ export async function requireRole(
     );
   }
   return context;
+}
+
+/** Where someone lands after signing in: their first organisation, or the welcome page when they have none. */
+export async function landingPathFor(user: User): Promise<string> {
+  const [first] = await listOrganisationsForUser(user.id);
+  return first ? `/o/${first.organisation.slug}` : "/welcome";
 }
