@@ -1,0 +1,205 @@
+/**
+ * The `choice` rule: Wardrop's user equilibrium with balking (Wardrop 1952, "Some theoretical
+ * aspects of road traffic research", *Proc. Inst. Civil Engineers* 1(3) — from memory for the
+ * page range). Every option a source's patients use costs the same and none is cheaper; the
+ * patients who balk are exactly those whose reservation cost is below that cost.
+ *
+ * Method (README-solvers.md has the full story): Newton on the m site costs for the logit model,
+ * with θ raised by decades from a smooth start (continuation), then the exact θ = ∞ finish on the
+ * tied structure (`wardrop-finish.ts`). The same driver solves the optimum on marginal-cost
+ * curves (`optimum.ts`). Flows among tied options are the maximum-entropy split.
+ */
+import type { Allocation, LineProblem, SolveDiagnostics } from "./problem";
+import { NoSteadyStateError } from "./problem";
+import { relativeGap } from "./allocation-cost";
+import { type CostView, LogitWorkspace, costScaleOf, evaluateLogit, initialTheta, logitNewton } from "./logit-newton";
+import { type SiteCostCurve, SiteInverse, waitCurve } from "./site-cost-curve";
+import { wardropFinish } from "./wardrop-finish";
+
+export interface SolveOptions {
+  /** Per-site cost (weeks) added to every option at the site; never counted in total cost. Default none. */
+  siteToll?: Float64Array;
+  /** Target relative gap (PRODUCT.md definition). Default 1e-10. */
+  tolerance?: number;
+  /** Cap on Newton iterations over all stages. Default 400. */
+  maxIterations?: number;
+  /** Site costs to start from (e.g. the previous period's waits). Default: each site's empty wait. */
+  warmStartWaits?: Float64Array;
+}
+
+export interface SolveResult {
+  allocation: Allocation;
+  /** Mean routine wait at each site (weeks) under the allocation. */
+  siteWait: Float64Array;
+  diagnostics: SolveDiagnostics;
+}
+
+interface NormalisedOptions {
+  siteToll: Float64Array | undefined;
+  tolerance: number;
+  maxIterations: number;
+  warmStartWaits: Float64Array | undefined;
+}
+
+export function normaliseOptions(options: SolveOptions): NormalisedOptions {
+  return {
+    siteToll: options.siteToll,
+    tolerance: options.tolerance ?? 1e-10,
+    maxIterations: options.maxIterations ?? 400,
+    warmStartWaits: options.warmStartWaits,
+  };
+}
+
+/** Throws NoSteadyStateError when patients with no outside option alone exceed every site's capacity. */
+export function assertSteadyState(problem: LineProblem): void {
+  let captive = 0;
+  for (let i = 0; i < problem.n; i++) if (!Number.isFinite(problem.outsideCost[i])) captive += problem.demand[i];
+  let capacity = 0;
+  for (const site of problem.sites) capacity += site.capacity;
+  if (captive >= capacity) {
+    throw new NoSteadyStateError([
+      { lineId: problem.lineId, siteIds: problem.siteIds, demand: captive, capacity, shortfall: captive - capacity },
+    ]);
+  }
+}
+
+export function buildCostView(problem: LineProblem, curves: SiteCostCurve[], siteToll: Float64Array | undefined): CostView {
+  const { n, m } = problem;
+  let pairCost = problem.travelCost;
+  if (siteToll) {
+    pairCost = new Float64Array(n * m);
+    for (let i = 0; i < n; i++) for (let j = 0; j < m; j++) pairCost[i * m + j] = problem.travelCost[i * m + j] + siteToll[j];
+  }
+  let totalDemand = 0;
+  for (let i = 0; i < n; i++) totalDemand += problem.demand[i];
+  return {
+    n,
+    m,
+    demand: problem.demand,
+    outsideCost: problem.outsideCost,
+    outsideSpread: problem.outsideSpread,
+    pairCost,
+    inverses: curves.map((curve) => new SiteInverse(curve)),
+    totalDemand,
+  };
+}
+
+export function siteLoads(problem: LineProblem, flow: Float64Array): Float64Array {
+  const { n, m } = problem;
+  const load = new Float64Array(m);
+  for (let i = 0; i < n; i++) for (let j = 0; j < m; j++) load[j] += flow[i * m + j];
+  return load;
+}
+
+export interface CurveSolveOutcome {
+  allocation: Allocation;
+  load: Float64Array;
+  /** Cost on the solved curves (wait or marginal cost) at the allocation's loads. */
+  curveCost: Float64Array;
+  diagnostics: SolveDiagnostics;
+}
+
+/**
+ * Wardrop equilibrium on the given site cost curves (waits → user equilibrium; marginal costs →
+ * system optimum). The relative gap is measured on those curves.
+ */
+export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve[], options: SolveOptions, ruleName: string): CurveSolveOutcome {
+  const settings = normaliseOptions(options);
+  assertSteadyState(problem);
+  const { n, m } = problem;
+  const view = buildCostView(problem, curves, settings.siteToll);
+  const warnings: string[] = [];
+  const w = new Float64Array(m);
+  for (let j = 0; j < m; j++) w[j] = settings.warmStartWaits?.[j] ?? view.inverses[j].emptyCost;
+  const workspace = new LogitWorkspace(n, m);
+  let iterations = 0;
+  if (view.totalDemand <= 0 || m === 0) {
+    return finishOutcome(problem, curves, view, new Float64Array(n * m), new Float64Array(n), settings, 0, warnings);
+  }
+
+  // Continuation: θ up by decades from a smooth start to θ_finish = 1e6 / cost scale.
+  let theta = initialTheta(view, w);
+  let budget = settings.maxIterations;
+  // The first stage's solution tells the cost scale that θ_finish is measured against.
+  const first = logitNewton(view, theta, w, workspace, 1e-3 * view.totalDemand, budget);
+  iterations += first.iterations;
+  budget -= first.iterations;
+  let finishTheta = Math.max(theta, 1e6 / costScaleOf(view, workspace));
+  if (theta < finishTheta) theta = Math.min(theta * 10, finishTheta);
+  for (let attempt = 0; attempt < 3; attempt++) {
+    for (;;) {
+      const last = theta >= finishTheta;
+      const outcome = logitNewton(view, theta, w, workspace, (last ? 1e-9 : 1e-3) * view.totalDemand, Math.max(budget, 1));
+      iterations += outcome.iterations;
+      budget -= outcome.iterations;
+      if (last || budget <= 0) break;
+      theta = Math.min(theta * 10, finishTheta);
+    }
+    const finish = wardropFinish(view, w, theta);
+    iterations += finish.iterations;
+    if (finish.ok) {
+      const result = finishOutcome(problem, curves, view, finish.flow, finish.balked, settings, iterations, warnings);
+      if (result.diagnostics.converged || attempt === 2 || budget <= 0) return annotate(result, ruleName);
+    } else if (attempt === 2 || budget <= 0) {
+      warnings.push(`${ruleName}: the exact finish failed (${finish.message}); the logit approximation at θ = ${theta.toExponential(2)} is reported.`);
+      evaluateLogit(view, theta, w, workspace);
+      const { flow, balked } = logitAllocation(view, workspace);
+      return annotate(finishOutcome(problem, curves, view, flow, balked, settings, iterations, warnings), ruleName);
+    }
+    // Retry from a sharper logit solution.
+    finishTheta *= 100;
+    theta = Math.min(theta * 10, finishTheta);
+  }
+  throw new Error("unreachable");
+}
+
+function annotate(outcome: CurveSolveOutcome, ruleName: string): CurveSolveOutcome {
+  const { diagnostics } = outcome;
+  if (!diagnostics.converged) {
+    diagnostics.warnings.push(
+      `${ruleName} did not converge: relative gap ${diagnostics.relativeGap.toExponential(2)} after ${diagnostics.iterations} iterations.`,
+    );
+  }
+  return outcome;
+}
+
+function finishOutcome(
+  problem: LineProblem,
+  curves: SiteCostCurve[],
+  view: CostView,
+  flow: Float64Array,
+  balked: Float64Array,
+  settings: NormalisedOptions,
+  iterations: number,
+  warnings: string[],
+): CurveSolveOutcome {
+  const load = siteLoads(problem, flow);
+  const curveCost = Float64Array.from(load, (x, j) => (x > 0 ? curves[j].cost(x) : view.inverses[j].emptyCost));
+  const allocation = { flow, balked };
+  const gap = relativeGap(problem, allocation, curveCost, settings.siteToll).relativeGap;
+  return {
+    allocation,
+    load,
+    curveCost,
+    diagnostics: { converged: gap <= settings.tolerance, iterations, relativeGap: gap, warnings },
+  };
+}
+
+/** Flows and balking of the logit split held in the workspace. */
+export function logitAllocation(view: CostView, ws: LogitWorkspace): Allocation {
+  const { n, m, demand } = view;
+  const flow = new Float64Array(n * m);
+  const balked = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    for (let k = ws.rowStart[i]; k < ws.rowStart[i + 1]; k++) flow[i * m + ws.columns[k]] = ws.served[i] * ws.shares[k];
+    balked[i] = demand[i] > 0 ? demand[i] - ws.served[i] : 0;
+  }
+  return { flow, balked };
+}
+
+/** Patient choice: Wardrop user equilibrium with balking. */
+export function solveChoice(problem: LineProblem, options: SolveOptions = {}): SolveResult {
+  const curves = problem.sites.map(waitCurve);
+  const outcome = solveWardropOnCurves(problem, curves, options, "choice");
+  return { allocation: outcome.allocation, siteWait: outcome.curveCost, diagnostics: outcome.diagnostics };
+}

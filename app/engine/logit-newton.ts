@@ -1,0 +1,300 @@
+/**
+ * Newton's method on the m site costs for the logit (stochastic user) equilibrium.
+ *
+ * Fix a cost w_j at every site. Each source i then splits its patients by logit over its options
+ * (sites at g_ij = w_j + c_ij, c_ij = travel + toll, and the outside option, see
+ * `outside-option.ts`), which sends Σ_i q_i·p_ij(w) patients to site j. Site j's own curve says
+ * which inflow produces the cost w_j: x_j(w_j) = W_j⁻¹(w_j). The equilibrium is the root of the
+ * m equations
+ *
+ *   R_j(w) = Σ_i q_i(w)·p_ij(w) − x_j(w_j) = 0.
+ *
+ * R is the gradient of the concave dual of Fisk's entropy-regularised program (Fisk 1980,
+ * "Some developments in equilibrium traffic assignment", *Transportation Research B* 14(3)), so
+ * its Jacobian −H is symmetric negative definite:
+ *
+ *   H = Σ_i [ θ q_i (diag p_i − p_i p_iᵀ) + κ_i p_i p_iᵀ ] + diag(x_j'(w_j)),
+ *
+ * with κ_i = −dq_i/dV_i ≥ 0 (V_i the inclusive cost). Newton solves H Δ = R (dense Cholesky on m
+ * unknowns — a few hundred at most) with a backtracking line search on ‖R‖₂; the Newton direction
+ * always decreases ‖R‖₂ because it is exact for the symmetric Jacobian.
+ *
+ * Pruning: an option more than 40/θ weeks dearer than a source's cheapest carries a share below
+ * e^{-40} ≈ 4e-18 and is skipped, so each source touches only the few sites that can be near
+ * its cheapest; H is assembled from those alone (work Σ_i K_i², K_i the kept options).
+ */
+import { logitBalking } from "./outside-option";
+import { choleskySolveInPlace } from "./dense-linear";
+import type { SiteInverse } from "./site-cost-curve";
+
+/** Options costlier than the cheapest by more than this many 1/θ carry shares below e^-40. */
+export const LOGIT_CUTOFF = 40;
+
+/** The solvers' common view of one line: costs per pair, demand, outside options, site curves. */
+export interface CostView {
+  n: number;
+  m: number;
+  demand: Float64Array;
+  outsideCost: Float64Array;
+  outsideSpread: Float64Array;
+  /** Travel cost plus any site toll, per pair (n·m); Infinity = pair not allowed. */
+  pairCost: Float64Array;
+  /** Inverse of each site's cost curve (wait for choice, marginal cost for the optimum). */
+  inverses: SiteInverse[];
+  totalDemand: number;
+}
+
+/** Buffers reused across Newton iterations (allocated once per solve). */
+export class LogitWorkspace {
+  rowStart: Int32Array;
+  columns: Int32Array;
+  shares: Float64Array;
+  served: Float64Array;
+  servedSlope: Float64Array;
+  inclusiveCost: Float64Array;
+  inflow: Float64Array;
+  load: Float64Array;
+  loadSlope: Float64Array;
+  residual: Float64Array;
+  hessian: Float64Array;
+  step: Float64Array;
+  trial: Float64Array;
+
+  constructor(readonly n: number, readonly m: number) {
+    this.rowStart = new Int32Array(n + 1);
+    const initial = Math.max(n * Math.min(m, 16), 16);
+    this.columns = new Int32Array(initial);
+    this.shares = new Float64Array(initial);
+    this.served = new Float64Array(n);
+    this.servedSlope = new Float64Array(n);
+    this.inclusiveCost = new Float64Array(n);
+    this.inflow = new Float64Array(m);
+    this.load = new Float64Array(m);
+    this.loadSlope = new Float64Array(m);
+    this.residual = new Float64Array(m);
+    this.hessian = new Float64Array(m * m);
+    this.step = new Float64Array(m);
+    this.trial = new Float64Array(m);
+  }
+
+  ensureCapacity(needed: number): void {
+    if (needed <= this.columns.length) return;
+    const size = Math.max(needed, this.columns.length * 2);
+    const columns = new Int32Array(size);
+    columns.set(this.columns);
+    const shares = new Float64Array(size);
+    shares.set(this.shares);
+    this.columns = columns;
+    this.shares = shares;
+  }
+}
+
+/**
+ * Logit split at site costs w: fills the workspace's kept options and shares, served demand,
+ * site inflows and the residual R. Returns ‖R‖₂.
+ */
+export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws: LogitWorkspace): number {
+  const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
+  ws.inflow.fill(0);
+  let kept = 0;
+  for (let i = 0; i < n; i++) {
+    ws.rowStart[i] = kept;
+    ws.served[i] = 0;
+    ws.servedSlope[i] = 0;
+    ws.inclusiveCost[i] = Infinity;
+    if (!(demand[i] > 0)) continue;
+    const row = i * m;
+    let cheapest = Infinity;
+    for (let j = 0; j < m; j++) {
+      const g = w[j] + pairCost[row + j];
+      if (g < cheapest) cheapest = g;
+    }
+    if (cheapest === Infinity) continue;
+    ws.ensureCapacity(kept + m);
+    const limit = cheapest + LOGIT_CUTOFF / theta;
+    let sum = 0;
+    const first = kept;
+    for (let j = 0; j < m; j++) {
+      const g = w[j] + pairCost[row + j];
+      if (g <= limit) {
+        const weight = Math.exp(-theta * (g - cheapest));
+        ws.columns[kept] = j;
+        ws.shares[kept] = weight;
+        sum += weight;
+        kept++;
+      }
+    }
+    const inclusive = cheapest - Math.log(sum) / theta;
+    ws.inclusiveCost[i] = inclusive;
+    const balking = logitBalking(inclusive, outsideCost[i], outsideSpread[i], theta);
+    const served = demand[i] * (1 - balking.share);
+    ws.served[i] = served;
+    ws.servedSlope[i] = demand[i] * balking.slope;
+    for (let k = first; k < kept; k++) {
+      ws.shares[k] /= sum;
+      ws.inflow[ws.columns[k]] += served * ws.shares[k];
+    }
+  }
+  ws.rowStart[n] = kept;
+  let norm = 0;
+  for (let j = 0; j < m; j++) {
+    const x = view.inverses[j].load(w[j]);
+    ws.load[j] = x;
+    ws.loadSlope[j] = view.inverses[j].loadSlope(w[j], x);
+    const r = ws.inflow[j] - x;
+    ws.residual[j] = r;
+    norm += r * r;
+  }
+  return Math.sqrt(norm);
+}
+
+/** H as in the header, lower triangle, from the last `evaluateLogit`. */
+function assembleHessian(view: CostView, theta: number, ws: LogitWorkspace): void {
+  const { n, m } = view;
+  const h = ws.hessian;
+  h.fill(0);
+  for (let i = 0; i < n; i++) {
+    const start = ws.rowStart[i];
+    const end = ws.rowStart[i + 1];
+    if (end === start) continue;
+    const q = ws.served[i];
+    const stiff = theta * q;
+    const rankOne = stiff - ws.servedSlope[i];
+    for (let a = start; a < end; a++) {
+      const ja = ws.columns[a];
+      const pa = ws.shares[a];
+      const rowA = ja * m;
+      h[rowA + ja] += stiff * pa;
+      const coefficient = rankOne * pa;
+      // Columns are stored in increasing site order, so jb ≤ ja: the lower triangle.
+      for (let b = start; b <= a; b++) h[rowA + ws.columns[b]] -= coefficient * ws.shares[b];
+    }
+  }
+  for (let j = 0; j < m; j++) h[j * m + j] += ws.loadSlope[j];
+}
+
+export interface NewtonOutcome {
+  iterations: number;
+  /** Σ_j |R_j| at exit, referrals/week. */
+  residual: number;
+  converged: boolean;
+}
+
+function absoluteSum(values: Float64Array): number {
+  let s = 0;
+  for (let k = 0; k < values.length; k++) s += Math.abs(values[k]);
+  return s;
+}
+
+/**
+ * Newton iterations at a fixed θ from the costs in `w` (updated in place) until Σ_j |R_j| ≤
+ * `tolerance`. Stops early, unconverged, when the line search can no longer reduce ‖R‖.
+ */
+export function logitNewton(
+  view: CostView,
+  theta: number,
+  w: Float64Array,
+  ws: LogitWorkspace,
+  tolerance: number,
+  maxIterations: number,
+): NewtonOutcome {
+  const { m } = view;
+  let norm = evaluateLogit(view, theta, w, ws);
+  let iterations = 0;
+  while (absoluteSum(ws.residual) > tolerance && iterations < maxIterations) {
+    iterations++;
+    assembleHessian(view, theta, ws);
+    ws.step.set(ws.residual);
+    choleskySolveInPlace(ws.hessian, ws.step, m);
+    // A full Newton step can jump far when a site is nearly empty or nearly full; no site cost
+    // needs to move by more than the spread of the pruned options (40/θ) plus the current cost.
+    let largest = 0;
+    for (let j = 0; j < m; j++) largest = Math.max(largest, Math.abs(ws.step[j]));
+    let scale = 1;
+    const cap = 4 * LOGIT_CUTOFF / theta + maxAbs(w);
+    if (largest > cap) scale = cap / largest;
+    let alpha = scale;
+    let accepted = false;
+    ws.trial.set(w);
+    for (let attempt = 0; attempt < 50; attempt++) {
+      for (let j = 0; j < m; j++) ws.trial[j] = w[j] + alpha * ws.step[j];
+      const trialNorm = evaluateLogit(view, theta, ws.trial, ws);
+      if (trialNorm <= (1 - 1e-4 * alpha) * norm || trialNorm === 0) {
+        w.set(ws.trial);
+        norm = trialNorm;
+        accepted = true;
+        break;
+      }
+      alpha *= 0.5;
+    }
+    if (!accepted) {
+      // Re-evaluate at the last accepted point so the workspace describes w.
+      evaluateLogit(view, theta, w, ws);
+      return { iterations, residual: absoluteSum(ws.residual), converged: false };
+    }
+  }
+  const residual = absoluteSum(ws.residual);
+  return { iterations, residual, converged: residual <= tolerance };
+}
+
+function maxAbs(values: Float64Array): number {
+  let largest = 0;
+  for (let k = 0; k < values.length; k++) largest = Math.max(largest, Math.abs(values[k]));
+  return largest;
+}
+
+/**
+ * A starting θ for continuation: small enough that the first Newton steps act on a smooth
+ * problem (θ times the typical cost ≈ 1), large enough that each source keeps only its ~16
+ * nearest sites (otherwise assembling H costs n·m² at national size).
+ */
+export function initialTheta(view: CostView, w: Float64Array): number {
+  const { n, m, pairCost, demand, outsideCost } = view;
+  const sampleStep = Math.max(1, Math.floor(n / 256));
+  const costs: number[] = [];
+  const spreads: number[] = [];
+  const rank = Math.min(m, 16) - 1;
+  const row = new Float64Array(m);
+  for (let i = 0; i < n; i += sampleStep) {
+    if (!(demand[i] > 0)) continue;
+    let count = 0;
+    for (let j = 0; j < m; j++) {
+      const g = w[j] + pairCost[i * m + j];
+      if (Number.isFinite(g)) row[count++] = g;
+    }
+    if (count === 0) continue;
+    const sorted = row.subarray(0, count).sort();
+    costs.push(Math.min(sorted[0], Number.isFinite(outsideCost[i]) ? outsideCost[i] : Infinity));
+    if (count > rank && rank > 0) spreads.push(sorted[rank] - sorted[0]);
+  }
+  const median = (values: number[]): number => {
+    if (values.length === 0) return 0;
+    const s = [...values].sort((a, b) => a - b);
+    return s[Math.floor(s.length / 2)];
+  };
+  let halfLoadCost = 0;
+  for (const inverse of view.inverses) halfLoadCost += inverse.curve.cost(inverse.curve.capacity / 2) - inverse.emptyCost;
+  halfLoadCost /= Math.max(view.inverses.length, 1);
+  const costScale = Math.max(median(costs), halfLoadCost, 1e-9);
+  let theta = 1 / costScale;
+  const spread = median(spreads);
+  if (m > 16 && spread > 0) theta = Math.max(theta, LOGIT_CUTOFF / spread);
+  return theta;
+}
+
+/** Demand-weighted mean inclusive cost after `evaluateLogit`: the scale θ is measured against. */
+export function costScaleOf(view: CostView, ws: LogitWorkspace): number {
+  let total = 0;
+  let weight = 0;
+  for (let i = 0; i < view.n; i++) {
+    const v = ws.inclusiveCost[i];
+    if (Number.isFinite(v) && view.demand[i] > 0) {
+      total += view.demand[i] * Math.abs(v);
+      weight += view.demand[i];
+    }
+  }
+  let halfLoadCost = 0;
+  for (const inverse of view.inverses) halfLoadCost += inverse.curve.cost(inverse.curve.capacity / 2) - inverse.emptyCost;
+  halfLoadCost /= Math.max(view.inverses.length, 1);
+  return Math.max(weight > 0 ? total / weight : 0, halfLoadCost, 1e-9);
+}

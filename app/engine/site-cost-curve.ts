@@ -1,0 +1,104 @@
+/**
+ * A site's cost as a function of its routine inflow, and the inverse the solvers work with.
+ *
+ * The solvers (see README-solvers.md) iterate on the m site costs w_j, not on the n·m flows: for a
+ * cost w_j they need the inflow x_j that produces it, x_j = W_j⁻¹(w_j), and its slope 1/W_j'(x_j).
+ * The same code serves two curves:
+ *  - the mean wait W_j(x) (the choice model, Wardrop's first principle), and
+ *  - the marginal cost M_j(x) = d[x·W_j(x)]/dx = W_j(x) + x·W_j'(x) (the optimum, Wardrop's
+ *    second principle; Beckmann, McGuire & Winsten 1956, *Studies in the Economics of Transportation*).
+ * Both are increasing on [0, capacity) and tend to infinity at capacity (Erlang C; convexity of
+ * W and x·W by Lee & Cohen 1983 and Grassmann 1983).
+ *
+ * Below the cost of an empty site the inverse is extended linearly (a "negative inflow"). No
+ * solution has one — flows are non-negative — but the extension keeps the site-cost equations
+ * smooth and strictly monotone everywhere, so Newton steps that overshoot stay well defined.
+ */
+import type { SiteWaitModel } from "./problem";
+
+export interface SiteCostCurve {
+  readonly capacity: number;
+  cost(x: number): number;
+  slope(x: number): number;
+}
+
+/** The marginal cost x ↦ W(x) + x·W'(x) of a site, with slope 2W' + x·W''. */
+export function marginalCostCurve(site: SiteWaitModel): SiteCostCurve {
+  const curvature = (x: number): number => {
+    const withCurvature = site as SiteWaitModel & { waitCurvature?: (x: number) => number };
+    if (withCurvature.waitCurvature) return withCurvature.waitCurvature(x);
+    // Central difference of the exact slope; the step shrinks with the distance to capacity,
+    // where W'' grows like (capacity − x)^-3.
+    const room = site.capacity - x;
+    const h = 1e-4 * Math.max(Math.min(x, room), 1e-12 * site.capacity);
+    if (x < h) return (site.waitSlope(x + h) - site.waitSlope(x)) / h;
+    return (site.waitSlope(x + h) - site.waitSlope(x - h)) / (2 * h);
+  };
+  return {
+    capacity: site.capacity,
+    cost: (x) => (x >= site.capacity ? Infinity : site.wait(x) + x * site.waitSlope(x)),
+    slope: (x) => (x >= site.capacity ? Infinity : 2 * site.waitSlope(x) + x * curvature(x)),
+  };
+}
+
+export function waitCurve(site: SiteWaitModel): SiteCostCurve {
+  return {
+    capacity: site.capacity,
+    cost: (x) => site.wait(x),
+    slope: (x) => site.waitSlope(x),
+  };
+}
+
+/**
+ * Inverts one site's cost curve with memory of the previous answer (the solvers call it with
+ * slowly moving costs, so the previous inflow is an excellent first guess).
+ */
+export class SiteInverse {
+  readonly emptyCost: number;
+  /** Slope dx/dw used below the empty cost, and the largest slope ever reported. */
+  private readonly maxLoadSlope: number;
+  private guess = 0;
+
+  constructor(readonly curve: SiteCostCurve) {
+    this.emptyCost = curve.cost(0);
+    const half = curve.capacity / 2;
+    // A scale for "flat": the mean slope from empty to half capacity. Near an empty M/M/c site
+    // with c ≥ 2 the wait is flat (W ∝ x^c), so dx/dw is unbounded; capping it at a million
+    // times the typical value keeps the Newton systems well scaled and changes no solution.
+    const typicalSlope = Math.max((curve.cost(half) - this.emptyCost) / half, 1e-300);
+    this.maxLoadSlope = 1e6 / typicalSlope;
+  }
+
+  /** Inflow x with cost(x) = w (x < 0 below the empty cost, by the linear extension). */
+  load(w: number): number {
+    if (w <= this.emptyCost) return (w - this.emptyCost) * this.maxLoadSlope;
+    const { curve } = this;
+    let lo = 0;
+    let hi = curve.capacity;
+    let x = this.guess > 0 && this.guess < hi ? this.guess : hi / 2;
+    for (let iteration = 0; iteration < 200; iteration++) {
+      const value = curve.cost(x) - w;
+      if (value === 0) break;
+      if (value > 0) hi = x;
+      else lo = x;
+      // Converged when the bracket or the residual is at rounding level.
+      if (Math.abs(value) <= 4e-16 * w || hi - lo <= 4e-16 * curve.capacity) break;
+      const slope = curve.slope(x);
+      let next = slope > 0 && Number.isFinite(slope) ? x - value / slope : NaN;
+      // Convex increasing cost: Newton from the right of the root stays right; from the left it
+      // may overshoot, possibly past capacity — then fall back to bisection.
+      if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+      if (next === x) break;
+      x = next;
+    }
+    this.guess = x;
+    return x;
+  }
+
+  /** dx/dw at cost w. */
+  loadSlope(w: number, x: number): number {
+    if (w <= this.emptyCost) return this.maxLoadSlope;
+    const slope = this.curve.slope(x);
+    return slope > 0 ? Math.min(1 / slope, this.maxLoadSlope) : this.maxLoadSlope;
+  }
+}

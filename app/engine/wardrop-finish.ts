@@ -1,0 +1,427 @@
+/**
+ * The exact finish of the Wardrop equilibrium (and of the optimum, on marginal-cost curves).
+ *
+ * Why a finish. The logit equilibrium at scale θ approaches Wardrop's as θ → ∞ (Fisk 1980), but
+ * only like 1/θ, and beyond θ ≈ 1e8 the shares exp(−θ·Δ) amplify rounding in the site costs.
+ * So continuation stops at a moderate θ, reads off which options are (nearly) tied, and solves
+ * the θ = ∞ limit on that structure exactly.
+ *
+ * The limit's structure. Let T_i be the sites source i uses (and, for a sharp outside option,
+ * whether it is tied with it). All options in T_i cost the same, so within a connected group of
+ * sites (linked by sources that use several) the site costs are fixed up to one level L:
+ * w_j = L + δ_j, with δ from travel-cost differences along a spanning tree. A source tied with a
+ * sharp outside option fixes L (its cost equals o). The logit shares converge too: writing
+ * w_j(θ) = L + δ_j + η_j/θ, a source's shares among its tied options tend to
+ * e^{−η_j} / (Σ_{k∈T_i} e^{−η_k} + [tied with outside]·1), which is the maximum-entropy split
+ * (flows of the product form α_i·β_j on the tied pairs). What remains are, per group, the
+ * unknowns (L, η) — one level (unless fixed) and one η per site less one gauge — and as many
+ * equations, the site balances Σ_i f_ij = x_j(L + δ_j). Newton solves them (dense LU per group);
+ * the Jacobian contains no θ, so it is as well conditioned as the problem itself.
+ *
+ * Active-set corrections. If the guessed structure is wrong, either some tied share runs to zero
+ * (η → ∞: that pair carries no flow and is dropped) or some option outside T_i turns out cheaper
+ * (it is added); then the structure is rebuilt and solved again. Flows are then exact to rounding.
+ */
+import type { CostView } from "./logit-newton";
+import { luSolveInPlace } from "./dense-linear";
+import { reservationRange } from "./outside-option";
+
+/** An option within this many 1/θ of a source's cheapest counts as tied (logit share ≥ ~1e-10). */
+const TIE_WIDTH = 23;
+/** Shares below this at a failed group solve mark pairs that carry no flow. */
+const VANISHING_SHARE = 1e-9;
+
+export interface FinishOutcome {
+  ok: boolean;
+  flow: Float64Array;
+  balked: Float64Array;
+  /** Site cost (wait or marginal cost) at the solution. */
+  siteCost: Float64Array;
+  load: Float64Array;
+  rounds: number;
+  iterations: number;
+  message: string;
+}
+
+interface SourceTie {
+  sites: number[];
+  outsideTie: boolean;
+  allBalk: boolean;
+}
+
+interface Group {
+  sites: number[];
+  sources: number[];
+  /** Offset δ_j per site of the group (w_j = L + δ_j), by position in `sites`. */
+  delta: Float64Array;
+  grounded: boolean;
+  level: number;
+}
+
+export function wardropFinish(view: CostView, w: Float64Array, theta: number, maxRounds = 40): FinishOutcome {
+  const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
+  const tie: SourceTie[] = initialStructure(view, w, theta);
+  const flow = new Float64Array(n * m);
+  const balked = new Float64Array(n);
+  const siteCost = new Float64Array(m);
+  const load = new Float64Array(m);
+  const sourceOffset = new Float64Array(n);
+  const eta = new Float64Array(m);
+  // η starts from the logit solution: w_j(θ) ≈ L + δ_j + η_j/θ.
+  let iterations = 0;
+  let message = "";
+  for (let round = 1; round <= maxRounds; round++) {
+    const groups = buildGroups(view, tie, sourceOffset);
+    if (groups === null) continue; // inconsistent ties were dropped; rebuild
+    let pruned = false;
+    flow.fill(0);
+    for (const group of groups) {
+      initialiseGroup(view, group, w, theta, eta);
+      const solved = solveGroup(view, group, tie, sourceOffset, eta);
+      iterations += solved.iterations;
+      if (!solved.ok) {
+        if (pruneVanishing(view, group, tie, eta)) pruned = true;
+        else {
+          message = `a group of ${group.sites.length} sites did not balance`;
+          return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message };
+        }
+      }
+    }
+    if (pruned) continue;
+    // Assemble the allocation on the solved structure.
+    siteCost.fill(NaN);
+    load.fill(0);
+    for (const group of groups) {
+      group.sites.forEach((j, k) => {
+        siteCost[j] = group.level + group.delta[k];
+        load[j] = view.inverses[j].load(siteCost[j]);
+      });
+      for (const i of group.sources) writeSourceFlows(view, i, tie[i], group.level + sourceOffset[i], eta, flow, balked);
+    }
+    for (let j = 0; j < m; j++) {
+      if (Number.isNaN(siteCost[j])) {
+        siteCost[j] = view.inverses[j].emptyCost;
+        load[j] = 0;
+      }
+    }
+    for (let i = 0; i < n; i++) {
+      const t = tie[i];
+      if (t.allBalk || t.sites.length === 0) {
+        balked[i] = Number.isFinite(outsideCost[i]) ? demand[i] : 0;
+        t.sites = [];
+      }
+    }
+    // Wardrop check: no cheaper option left unused, outside option respected.
+    let changed = false;
+    for (let i = 0; i < n; i++) {
+      if (!(demand[i] > 0)) continue;
+      const row = i * m;
+      let cheapest = Infinity;
+      let cheapestSite = -1;
+      for (let j = 0; j < m; j++) {
+        const g = siteCost[j] + pairCost[row + j];
+        if (g < cheapest) {
+          cheapest = g;
+          cheapestSite = j;
+        }
+      }
+      if (cheapestSite < 0) continue;
+      const t = tie[i];
+      const o = outsideCost[i];
+      const { high } = Number.isFinite(o) ? reservationRange(o, outsideSpread[i]) : { high: Infinity };
+      const tolerance = 1e-12 * (1 + Math.abs(cheapest));
+      if (t.allBalk || t.sites.length === 0) {
+        if (cheapest < (outsideSpread[i] === 0 ? o : high) - tolerance) {
+          t.allBalk = false;
+          t.sites = [cheapestSite];
+          t.outsideTie = outsideSpread[i] === 0 && Number.isFinite(o);
+          changed = true;
+        }
+        continue;
+      }
+      const used = siteCost[t.sites[0]] + pairCost[row + t.sites[0]];
+      if (cheapest < used - tolerance) {
+        for (let j = 0; j < m; j++) {
+          if (siteCost[j] + pairCost[row + j] < used - tolerance && !t.sites.includes(j)) t.sites.push(j);
+        }
+        t.sites.sort((a, b) => a - b);
+        changed = true;
+      }
+      if (Number.isFinite(o) && outsideSpread[i] === 0 && !t.outsideTie && used > o + tolerance) {
+        t.outsideTie = true;
+        changed = true;
+      }
+      if (Number.isFinite(o) && outsideSpread[i] > 0 && used > high + tolerance) {
+        t.allBalk = true;
+        changed = true;
+      }
+    }
+    if (!changed) return { ok: true, flow, balked, siteCost, load, rounds: round, iterations, message: "" };
+    message = "the tied structure kept changing";
+  }
+  return { ok: false, flow, balked, siteCost, load, rounds: maxRounds, iterations, message: message || "too many rounds" };
+}
+
+function initialStructure(view: CostView, w: Float64Array, theta: number): SourceTie[] {
+  const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
+  const width = TIE_WIDTH / theta;
+  const ties: SourceTie[] = [];
+  for (let i = 0; i < n; i++) {
+    const row = i * m;
+    let cheapest = Infinity;
+    for (let j = 0; j < m; j++) cheapest = Math.min(cheapest, w[j] + pairCost[row + j]);
+    const sites: number[] = [];
+    if (demand[i] > 0 && cheapest < Infinity) {
+      for (let j = 0; j < m; j++) if (w[j] + pairCost[row + j] <= cheapest + width) sites.push(j);
+    }
+    const o = outsideCost[i];
+    let outsideTie = false;
+    let allBalk = sites.length === 0 && Number.isFinite(o);
+    if (Number.isFinite(o) && sites.length > 0) {
+      if (outsideSpread[i] === 0) {
+        if (cheapest > o + width) allBalk = true;
+        else if (cheapest >= o - width) outsideTie = true;
+      } else if (cheapest > reservationRange(o, outsideSpread[i]).high + width) allBalk = true;
+    }
+    ties.push({ sites: allBalk ? [] : sites, outsideTie, allBalk });
+  }
+  return ties;
+}
+
+/**
+ * Connected groups of sites with their offsets δ (BFS over the bipartite graph of sites and the
+ * sources that use them). Drops ties that contradict the spanning tree and returns null when it
+ * did, so the caller rebuilds from the corrected structure.
+ */
+function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Array): Group[] | null {
+  const { n, m, pairCost, outsideCost } = view;
+  const sourcesOfSite: number[][] = Array.from({ length: m }, () => []);
+  for (let i = 0; i < n; i++) for (const j of tie[i].sites) sourcesOfSite[j].push(i);
+  const siteDelta = new Float64Array(m);
+  const siteSeen = new Uint8Array(m);
+  const sourceSeen = new Uint8Array(n);
+  const groups: Group[] = [];
+  let dropped = false;
+  for (let root = 0; root < m; root++) {
+    if (siteSeen[root] || sourcesOfSite[root].length === 0) continue;
+    const sites: number[] = [root];
+    const sources: number[] = [];
+    siteSeen[root] = 1;
+    siteDelta[root] = 0;
+    let grounded = false;
+    let level = 0;
+    for (let head = 0; head < sites.length; head++) {
+      const j = sites[head];
+      for (const i of sourcesOfSite[j]) {
+        if (sourceSeen[i]) continue;
+        sourceSeen[i] = 1;
+        sources.push(i);
+        const offset = siteDelta[j] + pairCost[i * m + j];
+        sourceOffset[i] = offset;
+        const t = tie[i];
+        for (const k of [...t.sites]) {
+          if (k === j) continue;
+          const implied = offset - pairCost[i * m + k];
+          if (!siteSeen[k]) {
+            siteSeen[k] = 1;
+            siteDelta[k] = implied;
+            sites.push(k);
+          } else if (Math.abs(siteDelta[k] - implied) > 1e-10 * (1 + Math.abs(offset))) {
+            t.sites = t.sites.filter((s) => s !== k);
+            dropped = true;
+          }
+        }
+        if (t.outsideTie) {
+          const required = outsideCost[i] - offset;
+          if (!grounded) {
+            grounded = true;
+            level = required;
+          } else if (Math.abs(required - level) > 1e-10 * (1 + Math.abs(outsideCost[i]))) {
+            t.outsideTie = false;
+            dropped = true;
+          }
+        }
+      }
+    }
+    groups.push({ sites, sources, delta: Float64Array.from(sites, (j) => siteDelta[j]), grounded, level });
+  }
+  return dropped ? null : groups;
+}
+
+function initialiseGroup(view: CostView, group: Group, w: Float64Array, theta: number, eta: Float64Array): void {
+  const { sites, delta } = group;
+  if (!group.grounded) group.level = w[sites[0]] - delta[0];
+  for (let k = 0; k < sites.length; k++) {
+    const value = theta * (w[sites[k]] - group.level - delta[k]);
+    eta[sites[k]] = Math.min(Math.max(value, -30), 30);
+  }
+  if (!group.grounded) {
+    const shift = eta[sites[0]];
+    for (const j of sites) eta[j] -= shift;
+  }
+}
+
+/** Served demand and its slope in the level for a source not tied with a sharp outside option. */
+function servedAt(view: CostView, i: number, u: number): { served: number; slope: number } {
+  const o = view.outsideCost[i];
+  const spread = view.outsideSpread[i];
+  const d = view.demand[i];
+  if (!Number.isFinite(o) || spread === 0) return { served: d, slope: 0 };
+  const { low, high } = reservationRange(o, spread);
+  if (u <= low) return { served: d, slope: 0 };
+  if (u >= high) return { served: 0, slope: 0 };
+  return { served: d * (high - u) / (high - low), slope: -d / (high - low) };
+}
+
+function solveGroup(
+  view: CostView,
+  group: Group,
+  tie: SourceTie[],
+  sourceOffset: Float64Array,
+  eta: Float64Array,
+): { ok: boolean; iterations: number } {
+  const { sites, sources, delta, grounded } = group;
+  const size = sites.length;
+  const local = new Map<number, number>();
+  sites.forEach((j, k) => local.set(j, k));
+  // Unknowns: grounded → η of every site; otherwise L then η of sites 1..size−1 (η of site 0 is 0).
+  const unknowns = size;
+  const etaIndex = (k: number): number => (grounded ? k : k === 0 ? -1 : k);
+  const residual = new Float64Array(size);
+  const jacobian = new Float64Array(unknowns * unknowns);
+  const step = new Float64Array(unknowns);
+  const savedEta = new Float64Array(size);
+  let scale = 0;
+  for (const i of sources) scale += view.demand[i];
+  // Aim at rounding level; a stall is accepted once the balance is within 1e-11 of the demand.
+  const tolerance = 1e-15 * Math.max(scale, 1e-300);
+  const acceptable = 1e-11 * Math.max(scale, 1e-300);
+
+  const evaluate = (withJacobian: boolean): number => {
+    residual.fill(0);
+    if (withJacobian) jacobian.fill(0);
+    for (let k = 0; k < size; k++) {
+      const j = sites[k];
+      const w = group.level + delta[k];
+      const x = view.inverses[j].load(w);
+      residual[k] -= x;
+      if (withJacobian && !grounded) jacobian[k * unknowns] -= view.inverses[j].loadSlope(w, x);
+    }
+    for (const i of sources) {
+      const t = tie[i];
+      const count = t.sites.length;
+      let smallest = t.outsideTie ? 0 : Infinity;
+      for (const j of t.sites) smallest = Math.min(smallest, eta[j]);
+      let sum = t.outsideTie ? Math.exp(smallest) : 0;
+      for (const j of t.sites) sum += Math.exp(-(eta[j] - smallest));
+      const { served, slope } = t.outsideTie ? { served: view.demand[i], slope: 0 } : servedAt(view, i, group.level + sourceOffset[i]);
+      for (let a = 0; a < count; a++) {
+        const ka = local.get(t.sites[a]) as number;
+        const pa = Math.exp(-(eta[t.sites[a]] - smallest)) / sum;
+        residual[ka] += served * pa;
+        if (!withJacobian) continue;
+        if (!grounded) jacobian[ka * unknowns] += slope * pa;
+        for (let b = 0; b < count; b++) {
+          const kb = local.get(t.sites[b]) as number;
+          const column = etaIndex(kb);
+          if (column < 0) continue;
+          const pb = Math.exp(-(eta[t.sites[b]] - smallest)) / sum;
+          jacobian[ka * unknowns + column] -= served * pa * ((a === b ? 1 : 0) - pb);
+        }
+      }
+    }
+    let norm = 0;
+    for (let k = 0; k < size; k++) norm += residual[k] * residual[k];
+    return Math.sqrt(norm);
+  };
+
+  let norm = evaluate(true);
+  let iterations = 0;
+  for (; iterations < 60; iterations++) {
+    let largest = 0;
+    for (let k = 0; k < size; k++) largest = Math.max(largest, Math.abs(residual[k]));
+    if (largest <= tolerance) return { ok: true, iterations };
+    for (let k = 0; k < size; k++) step[k] = -residual[k];
+    if (!luSolveInPlace(jacobian, step, unknowns)) return { ok: false, iterations };
+    // η moves at most 8 per step (a factor e^8 in a share); the line search does the rest.
+    let biggestEta = 0;
+    for (let k = 0; k < size; k++) if (etaIndex(k) >= 0) biggestEta = Math.max(biggestEta, Math.abs(step[etaIndex(k)]));
+    let alpha = biggestEta > 8 ? 8 / biggestEta : 1;
+    const savedLevel = group.level;
+    for (let k = 0; k < size; k++) savedEta[k] = eta[sites[k]];
+    let accepted = false;
+    for (let attempt = 0; attempt < 40; attempt++) {
+      if (!grounded) group.level = savedLevel + alpha * step[0];
+      for (let k = 0; k < size; k++) {
+        const index = etaIndex(k);
+        if (index >= 0) eta[sites[k]] = savedEta[k] + alpha * step[index];
+      }
+      const trial = evaluate(false);
+      if (trial <= (1 - 1e-4 * alpha) * norm) {
+        norm = trial;
+        accepted = true;
+        break;
+      }
+      alpha *= 0.5;
+    }
+    if (!accepted) {
+      group.level = savedLevel;
+      for (let k = 0; k < size; k++) eta[sites[k]] = savedEta[k];
+      evaluate(false);
+      let largestLeft = 0;
+      for (let k = 0; k < size; k++) largestLeft = Math.max(largestLeft, Math.abs(residual[k]));
+      return { ok: largestLeft <= acceptable, iterations };
+    }
+    evaluate(true);
+  }
+  let largestLeft = 0;
+  for (let k = 0; k < size; k++) largestLeft = Math.max(largestLeft, Math.abs(residual[k]));
+  return { ok: largestLeft <= acceptable, iterations };
+}
+
+/** After a failed group solve: drop tied options whose share has (nearly) vanished. */
+function pruneVanishing(view: CostView, group: Group, tie: SourceTie[], eta: Float64Array): boolean {
+  let pruned = false;
+  for (const i of group.sources) {
+    const t = tie[i];
+    let smallest = t.outsideTie ? 0 : Infinity;
+    for (const j of t.sites) smallest = Math.min(smallest, eta[j]);
+    let sum = t.outsideTie ? Math.exp(smallest) : 0;
+    for (const j of t.sites) sum += Math.exp(-(eta[j] - smallest));
+    if (t.outsideTie && Math.exp(smallest) / sum < VANISHING_SHARE) {
+      t.outsideTie = false;
+      pruned = true;
+    }
+    const kept = t.sites.filter((j) => Math.exp(-(eta[j] - smallest)) / sum >= VANISHING_SHARE);
+    if (kept.length < t.sites.length) {
+      pruned = true;
+      t.sites = kept;
+      if (kept.length === 0) t.allBalk = t.outsideTie || Number.isFinite(view.outsideCost[i]);
+    }
+  }
+  return pruned;
+}
+
+function writeSourceFlows(
+  view: CostView,
+  i: number,
+  t: SourceTie,
+  u: number,
+  eta: Float64Array,
+  flow: Float64Array,
+  balked: Float64Array,
+): void {
+  const { m, demand } = view;
+  let smallest = t.outsideTie ? 0 : Infinity;
+  for (const j of t.sites) smallest = Math.min(smallest, eta[j]);
+  let sum = t.outsideTie ? Math.exp(smallest) : 0;
+  for (const j of t.sites) sum += Math.exp(-(eta[j] - smallest));
+  const served = t.outsideTie ? demand[i] : servedAt(view, i, u).served;
+  let total = 0;
+  for (const j of t.sites) {
+    const f = served * Math.exp(-(eta[j] - smallest)) / sum;
+    flow[i * m + j] = f;
+    total += f;
+  }
+  balked[i] = Math.max(demand[i] - total, 0);
+}
