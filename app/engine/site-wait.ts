@@ -30,7 +30,7 @@ import type { SiteWaitModel } from "./problem";
 import { allenCunneenFactor } from "./allen-cunneen";
 import { assertNonNegative, assertPositiveRate, assertServers, erlangC } from "./erlang";
 import { visitRatios } from "./pathway";
-import { lowPriorityQueueWaitSlope, priorityQueueWaits } from "./priority";
+import { priorityQueueWaits } from "./priority";
 
 export interface PathwayStageSpec {
   id: string;
@@ -135,11 +135,7 @@ export function createSiteWaitModel(spec: SiteQueueSpec, urgentInflow = 0): Site
       if (routine >= capacity) return Infinity;
       let total = 0;
       for (const queue of queues) {
-        const [, routineWait] = priorityQueueWaits(queue.servers, queue.ratePerServer, [
-          urgentInflow * queue.visits,
-          routine * queue.visits,
-        ]);
-        total += queue.visits * queue.variabilityFactor * routineWait;
+        total += queue.visits * queue.variabilityFactor * routineStageWait(queue, urgentInflow * queue.visits, routine * queue.visits);
       }
       return total;
     },
@@ -148,17 +144,58 @@ export function createSiteWaitModel(spec: SiteQueueSpec, urgentInflow = 0): Site
       if (routine >= capacity) return Infinity;
       let total = 0;
       for (const queue of queues) {
-        const slope = lowPriorityQueueWaitSlope(
-          queue.servers,
-          queue.ratePerServer,
-          urgentInflow * queue.visits,
-          routine * queue.visits,
-        );
+        const slope = routineStageWaitSlope(queue, urgentInflow * queue.visits, routine * queue.visits);
         total += queue.visits * queue.visits * queue.variabilityFactor * slope;
       }
       return total;
     },
   };
+}
+
+/*
+ * The two functions below are the hot path of every solver (called for each site at each
+ * iteration), so they repeat Cobham's two-class formula and its derivative inline — inputs were
+ * validated when the model was built, and nothing is allocated. They agree with
+ * `lowPriorityQueueWait` / `lowPriorityQueueWaitSlope` in priority.ts (tested to 1e-14).
+ */
+
+/** Erlang B by the stable recursion, without argument checks. */
+function blockingOf(servers: number, load: number): number {
+  let blocking = 1;
+  for (let k = 1; k <= servers; k++) {
+    const numerator = load * blocking;
+    blocking = numerator / (k + numerator);
+  }
+  return blocking;
+}
+
+/** Cobham's low-class wait C(c, a)/(cμ) / ((1 − σ_u)(1 − σ)) at one stage. */
+function routineStageWait(queue: StageQueue, urgent: number, routine: number): number {
+  const stageCapacity = queue.servers * queue.ratePerServer;
+  const total = urgent + routine;
+  if (total >= stageCapacity) return Infinity;
+  const utilisation = total / stageCapacity;
+  const blocking = blockingOf(queue.servers, total / queue.ratePerServer);
+  const waitProbability = blocking / (1 - utilisation * (1 - blocking));
+  return waitProbability / (stageCapacity * (1 - urgent / stageCapacity) * (1 - utilisation));
+}
+
+/** d/d(routine) of `routineStageWait`, by dB/da = B(c/a − 1 + B) and the chain rule (see priority.ts). */
+function routineStageWaitSlope(queue: StageQueue, urgent: number, routine: number): number {
+  const { servers, ratePerServer } = queue;
+  const stageCapacity = servers * ratePerServer;
+  const total = urgent + routine;
+  if (total >= stageCapacity) return Infinity;
+  const load = total / ratePerServer;
+  const utilisation = total / stageCapacity;
+  const spareShare = 1 - utilisation;
+  const blocking = blockingOf(servers, load);
+  const blockingSlope = load === 0 ? (servers === 1 ? 1 : 0) : blocking * (servers / load - 1 + blocking);
+  const denominator = 1 - utilisation + utilisation * blocking;
+  const waitProbability = blocking / denominator;
+  const waitProbabilitySlope = (spareShare * blockingSlope + (blocking * (1 - blocking)) / servers) / (denominator * denominator);
+  const scale = 1 / (stageCapacity * (1 - urgent / stageCapacity));
+  return scale * (waitProbabilitySlope / (ratePerServer * spareShare) + waitProbability / (stageCapacity * spareShare * spareShare));
 }
 
 export interface SiteMetrics {

@@ -1,5 +1,6 @@
 import { describe, expect, it } from "vitest";
 import { erlangC, mmcQueueWait, mmcQueueWaitSlope, mmcShareWaitingWithin } from "../../../app/engine/erlang";
+import { lowPriorityQueueWait, lowPriorityQueueWaitSlope } from "../../../app/engine/priority";
 import { createSiteWaitModel, siteMetrics, type SiteQueueSpec } from "../../../app/engine/site-wait";
 
 /** A three-stage pathway: first appointment → diagnostics → treatment, with some returning. */
@@ -49,6 +50,19 @@ describe("createSiteWaitModel", () => {
     const model = createSiteWaitModel({ teams: 2, ratePerTeam: 1 }, 0.5);
     expect(model.capacity).toBe(1.5);
     expect(model.wait(1)).toBeCloseTo(12 / 7, 12);
+  });
+
+  it("its inlined hot path agrees with priority.ts to 1e-14 relative", () => {
+    for (const [teams, rate, urgent] of [[1, 3, 0], [1, 3, 1], [4, 0.5, 0.6], [30, 2, 11], [200, 1, 50]] as const) {
+      const model = createSiteWaitModel({ teams, ratePerTeam: rate }, urgent);
+      for (const share of [0, 0.3, 0.9, 0.999]) {
+        const x = share * model.capacity;
+        const wait = lowPriorityQueueWait(teams, rate, urgent, x);
+        const slope = lowPriorityQueueWaitSlope(teams, rate, urgent, x);
+        expect(Math.abs(model.wait(x) - wait)).toBeLessThanOrEqual(1e-14 * wait);
+        expect(Math.abs(model.waitSlope(x) - slope)).toBeLessThanOrEqual(1e-14 * slope);
+      }
+    }
   });
 
   it("applies the Allen–Cunneen factor (1 + cv²)/2 to the M/M/c wait", () => {
