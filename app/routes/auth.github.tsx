@@ -10,7 +10,8 @@ async function startSignIn(request: Request, returnTo: unknown): Promise<never> 
   if (target) session.set("returnTo", target);
   else session.unset("returnTo");
   try {
-    await getAuthenticator().authenticate(GITHUB_STRATEGY, request);
+    // remix-auth copies the request, which fails once a form body has been read; the flow needs only URL and cookies.
+    await getAuthenticator().authenticate(GITHUB_STRATEGY, new Request(request.url, { headers: request.headers }));
   } catch (thrown) {
     if (thrown instanceof IdentityProviderNotConfiguredError) throw redirect("/sign-in");
     if (thrown instanceof Response) {
