@@ -68,7 +68,7 @@ export async function openDatabase(options: { url?: string; dataDir?: string; mi
       const { migrate: runMigrations } = await import("drizzle-orm/node-postgres/migrator");
       await runMigrations(db, { migrationsFolder: MIGRATIONS_FOLDER });
     }
-    return { db: db as unknown as Database, kind: "postgres", close: () => pool.end() };
+    return { db: db as unknown as Database, kind: "postgres", close: async () => (pool.ended ? undefined : pool.end()) };
   }
 
   const dataDir = path.resolve(options.dataDir ?? "./data");
@@ -88,7 +88,8 @@ export async function openDatabase(options: { url?: string; dataDir?: string; mi
       db: db as unknown as Database,
       kind: "pglite",
       close: async () => {
-        await client.close();
+        // Closing twice (shutdown hook and test teardown both holding it) is harmless.
+        if (!client.closed) await client.close();
         releaseLock();
       },
     };
