@@ -8,7 +8,8 @@ import { matchPath, RouterContextProvider } from "react-router";
 export interface DataFunctionArgs {
   request: Request;
   params: Record<string, string | undefined>;
-  context: RouterContextProvider;
+  // Typed loosely: without middleware the routes see an AppLoadContext, with it a RouterContextProvider.
+  context: unknown;
   url: URL;
   pattern: string;
 }
