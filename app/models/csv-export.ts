@@ -126,7 +126,7 @@ export function resultToCsvFiles(result: ResultDocument, context: ResultExportCo
     for (const [ruleKey, rule] of Object.entries(line.rules)) {
       if (!rule) continue;
       for (const provider of rule.providers) {
-        siteRows.push([lineId, ruleKey, provider.id, provider.inflow, provider.utilisation, provider.meanWaitWeeks, provider.shareWithinStandard, provider.utilisation >= 0.85 ? "at or above 85%" : ""]);
+        siteRows.push([lineId, ruleKey, provider.id, provider.inflow, provider.utilisation, provider.meanWaitWeeks, provider.shareWithinStandard, provider.utilisation === null ? "overloaded" : provider.utilisation >= 0.85 ? "at or above 85%" : ""]);
       }
       for (const source of rule.sources) {
         practiceRows.push([lineId, ruleKey, source.id, source.balked, source.meanWaitWeeks, source.meanKm, ...sites.map((site) => source.flows[site])]);

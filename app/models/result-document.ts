@@ -9,48 +9,58 @@
 
 export const RESULT_SCHEMA = "equilibra/result@1";
 
+// Numbers the model has no finite value for (a site overloaded by a fixed rule) arrive as null.
 export interface ProviderResult {
   id: string;
+  name?: string | null;
   inflow: number;
-  utilisation: number;
-  meanWaitWeeks: number;
-  shareWithinStandard: number;
+  utilisation: number | null;
+  meanWaitWeeks: number | null;
+  shareWithinStandard: number | null;
+  warning?: string;
 }
 
 export interface SourceResult {
   id: string;
+  /** Referrals/week of the line from this practice (urgent + routine), when reported. */
+  demand?: number;
   balked: number;
-  meanWaitWeeks: number;
-  meanKm: number;
+  meanWaitWeeks: number | null;
+  meanKm: number | null;
   flows: Record<string, number>;
-  /** Mean cost per referral in weeks-equivalent, balkers included, when the engine reports it. */
-  meanCost?: number;
+  /** Mean cost per referral in weeks-equivalent, balkers at their reservation cost included. */
+  meanCost?: number | null;
 }
 
 export interface RuleResult {
   converged: boolean;
   iterations: number;
-  relativeGap: number;
-  totalCost: number;
+  relativeGap: number | null;
+  totalCost: number | null;
   servedPerWeek: number;
   balkedPerWeek: number;
-  meanWaitWeeks: number;
-  meanKm: number;
-  shareWithinStandard?: number;
+  meanWaitWeeks: number | null;
+  meanKm: number | null;
+  shareWithinStandard?: number | null;
   providers: ProviderResult[];
   sources: SourceResult[];
   warnings?: string[];
 }
 
 export interface LineResult {
+  name?: string;
+  standardWeeks?: number;
   priceOfAnarchy: number | null;
   rules: Partial<Record<string, RuleResult>>;
+  warnings?: string[];
 }
 
 export interface ResultDocument {
   schema: typeof RESULT_SCHEMA;
   priceOfAnarchy: number | null;
   lines: Record<string, LineResult>;
+  assumptions?: Record<string, unknown>;
+  cautions?: string[];
   warnings?: string[];
 }
 
@@ -89,13 +99,14 @@ export interface SourceFacts {
 
 export interface RuleSummary {
   rule: string;
-  totalCost: number;
-  /** Total cost of this rule over the optimum's, over all selected lines. */
+  /** Null when some line has no finite cost under this rule (a site it overloads). */
+  totalCost: number | null;
+  /** Total cost of this rule over the optimum's, over the selected lines. */
   priceOfAnarchy: number | null;
-  /** Weighted by patients served. */
-  meanWaitWeeks: number;
+  /** Means over patients served. */
+  meanWaitWeeks: number | null;
   shareWithinStandard: number | null;
-  meanKm: number;
+  meanKm: number | null;
   servedPerWeek: number;
   balkedPerWeek: number;
   /** Spread of mean cost per referral across practices (max − min, weeks-equivalent). */
@@ -103,78 +114,73 @@ export interface RuleSummary {
   /** Mean cost per referral by deprivation decile (1 = most deprived); empty when no decile is known. */
   costByDecile: Array<{ decile: number; meanCost: number; demand: number }>;
   converged: boolean;
-  /** Site utilisation warnings (≥ 85%). */
+  /** Sites at or above 85% utilisation. */
   busySites: Array<{ line: string; id: string; utilisation: number }>;
 }
 
-/** Mean cost per referral of one practice under one rule (weeks-equivalent). */
-export function sourceMeanCost(source: SourceResult, kmPerWeek: number): number | null {
-  if (typeof source.meanCost === "number") return source.meanCost;
-  const served = Object.values(source.flows).reduce((sum, flow) => sum + flow, 0);
-  if (served <= 0) return null;
-  // Without the engine's figure, the cost of those served: wait plus travel converted at κ.
-  return source.meanWaitWeeks + source.meanKm / kmPerWeek;
+function sourceDemand(source: SourceResult): number {
+  return source.demand ?? Object.values(source.flows).reduce((sum, flow) => sum + flow, 0) + source.balked;
 }
 
 /**
  * One row per rule, aggregated over the chosen service lines (all by default). Means are weighted
- * by patients served; equity is read across practices and deprivation deciles.
+ * by patients served; a practice's cost over several lines is weighted by its demand on each, and
+ * practices are grouped by deprivation decile for the equity columns.
  */
-export function summariseRules(
-  result: ResultDocument,
-  options: { kmPerWeek: number; lines?: string[]; sources?: SourceFacts[] },
-): RuleSummary[] {
+export function summariseRules(result: ResultDocument, options: { lines?: string[]; sources?: SourceFacts[] } = {}): RuleSummary[] {
   const lineIds = options.lines ?? Object.keys(result.lines);
   const decileOf = new Map((options.sources ?? []).map((source) => [source.id, source.deprivationDecile ?? null]));
-  let optimumCost = 0;
-  let optimumComplete = true;
+  let optimumCost: number | null = 0;
   for (const lineId of lineIds) {
-    const optimum = result.lines[lineId]?.rules.optimum;
-    if (optimum) optimumCost += optimum.totalCost;
-    else optimumComplete = false;
+    const cost = result.lines[lineId]?.rules.optimum?.totalCost;
+    optimumCost = typeof cost === "number" && optimumCost !== null ? optimumCost + cost : null;
   }
   return rulesIn(result).map((rule) => {
-    let totalCost = 0;
+    let totalCost: number | null = 0;
     let served = 0;
     let balked = 0;
-    let waitSum = 0;
-    let kmSum = 0;
-    let withinSum = 0;
-    let withinKnown = true;
+    let waitSum: number | null = 0;
+    let kmSum: number | null = 0;
+    let withinSum: number | null = 0;
+    let withinWeight = 0;
     let converged = true;
     const busySites: RuleSummary["busySites"] = [];
-    // Per practice over lines: demand-weighted cost.
     const practiceCost = new Map<string, { cost: number; demand: number }>();
+    let costsComplete = true;
     for (const lineId of lineIds) {
       const ruleResult = result.lines[lineId]?.rules[rule];
       if (!ruleResult) continue;
-      totalCost += ruleResult.totalCost;
+      totalCost = totalCost !== null && ruleResult.totalCost !== null ? totalCost + ruleResult.totalCost : null;
       served += ruleResult.servedPerWeek;
       balked += ruleResult.balkedPerWeek;
-      waitSum += ruleResult.meanWaitWeeks * ruleResult.servedPerWeek;
-      kmSum += ruleResult.meanKm * ruleResult.servedPerWeek;
-      converged &&= ruleResult.converged;
-      let lineWithin = 0;
-      let lineInflow = 0;
-      for (const provider of ruleResult.providers) {
-        lineWithin += provider.shareWithinStandard * provider.inflow;
-        lineInflow += provider.inflow;
-        if (provider.utilisation >= UTILISATION_WARNING) busySites.push({ line: lineId, id: provider.id, utilisation: provider.utilisation });
+      if (ruleResult.servedPerWeek > 0) {
+        waitSum = waitSum !== null && ruleResult.meanWaitWeeks !== null ? waitSum + ruleResult.meanWaitWeeks * ruleResult.servedPerWeek : null;
+        kmSum = kmSum !== null && ruleResult.meanKm !== null ? kmSum + ruleResult.meanKm * ruleResult.servedPerWeek : null;
+        if (ruleResult.shareWithinStandard != null && withinSum !== null) {
+          withinSum += ruleResult.shareWithinStandard * ruleResult.servedPerWeek;
+          withinWeight += ruleResult.servedPerWeek;
+        } else if (ruleResult.shareWithinStandard === null) withinSum = null;
       }
-      if (typeof ruleResult.shareWithinStandard === "number") withinSum += ruleResult.shareWithinStandard * ruleResult.servedPerWeek;
-      else if (lineInflow > 0) withinSum += (lineWithin / lineInflow) * ruleResult.servedPerWeek;
-      else withinKnown &&= ruleResult.servedPerWeek === 0;
+      converged &&= ruleResult.converged;
+      for (const provider of ruleResult.providers) {
+        if (provider.utilisation === null || provider.utilisation >= UTILISATION_WARNING) {
+          busySites.push({ line: lineId, id: provider.id, utilisation: provider.utilisation ?? Infinity });
+        }
+      }
       for (const source of ruleResult.sources) {
-        const cost = sourceMeanCost(source, options.kmPerWeek);
-        if (cost === null) continue;
-        const demand = Object.values(source.flows).reduce((sum, flow) => sum + flow, 0) + source.balked;
+        const demand = sourceDemand(source);
+        if (demand <= 0) continue;
+        if (source.meanCost === null || source.meanCost === undefined) {
+          costsComplete = false;
+          continue;
+        }
         const entry = practiceCost.get(source.id) ?? { cost: 0, demand: 0 };
-        entry.cost += cost * demand;
+        entry.cost += source.meanCost * demand;
         entry.demand += demand;
         practiceCost.set(source.id, entry);
       }
     }
-    const means = [...practiceCost.entries()].filter(([, entry]) => entry.demand > 0).map(([id, entry]) => ({ id, mean: entry.cost / entry.demand, demand: entry.demand }));
+    const means = [...practiceCost.entries()].map(([id, entry]) => ({ id, mean: entry.cost / entry.demand, demand: entry.demand }));
     const deciles = new Map<number, { cost: number; demand: number }>();
     for (const practice of means) {
       const decile = decileOf.get(practice.id);
@@ -187,16 +193,16 @@ export function summariseRules(
     return {
       rule,
       totalCost,
-      priceOfAnarchy: optimumComplete && optimumCost > 0 ? totalCost / optimumCost : null,
-      meanWaitWeeks: served > 0 ? waitSum / served : 0,
-      shareWithinStandard: withinKnown && served > 0 ? withinSum / served : null,
-      meanKm: served > 0 ? kmSum / served : 0,
+      priceOfAnarchy: totalCost !== null && optimumCost !== null && optimumCost > 0 ? totalCost / optimumCost : null,
+      meanWaitWeeks: served > 0 && waitSum !== null ? waitSum / served : null,
+      shareWithinStandard: withinSum !== null && withinWeight > 0 ? withinSum / withinWeight : null,
+      meanKm: served > 0 && kmSum !== null ? kmSum / served : null,
       servedPerWeek: served,
       balkedPerWeek: balked,
-      costSpread: means.length > 0 ? Math.max(...means.map((m) => m.mean)) - Math.min(...means.map((m) => m.mean)) : null,
-      costByDecile: [...deciles.entries()]
-        .sort(([a], [b]) => a - b)
-        .map(([decile, entry]) => ({ decile, meanCost: entry.cost / entry.demand, demand: entry.demand })),
+      costSpread: costsComplete && means.length > 0 ? Math.max(...means.map((m) => m.mean)) - Math.min(...means.map((m) => m.mean)) : null,
+      costByDecile: costsComplete
+        ? [...deciles.entries()].sort(([a], [b]) => a - b).map(([decile, entry]) => ({ decile, meanCost: entry.cost / entry.demand, demand: entry.demand }))
+        : [],
       converged,
       busySites,
     };
@@ -206,7 +212,7 @@ export function summariseRules(
 export interface SiteRuleRow {
   line: string;
   site: string;
-  byRule: Record<string, { inflow: number; utilisation: number; meanWaitWeeks: number; shareWithinStandard: number }>;
+  byRule: Record<string, { inflow: number; utilisation: number | null; meanWaitWeeks: number | null; shareWithinStandard: number | null }>;
 }
 
 /** Per site and line, the inflow and utilisation under each rule: the side-by-side site table. */
