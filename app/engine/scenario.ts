@@ -9,7 +9,7 @@
  * routing matrices against their stages). Nothing is half-accepted: any issue rejects the file.
  */
 import { z } from "zod";
-import { ScenarioInputError } from "./problem.ts";
+import { ScenarioInputError } from "./problem";
 
 export const SCENARIO_SCHEMA = "equilibra/scenario@1";
 
@@ -168,7 +168,7 @@ export const scenarioSchema = z.object(
     plan: z
       .object(
         {
-          maxUtilisation: numberField("a utilisation ceiling in (0, 1)", (v) => v > 0 && v < 1).optional(),
+          maxUtilisation: numberField("a utilisation ceiling in (0, 1]", (v) => v > 0 && v <= 1).optional(),
           maxKm: positive("km").optional(),
         },
         { error: "must be an object with maxUtilisation and/or maxKm" },

@@ -125,7 +125,7 @@ const cases: [string, (s: Json) => void, { path: string; message: string }[]][] 
   ["sources not an array", (s) => (s.sources = { S1: {} }), [{ path: "sources", message: 'must be an array of referral sources; got {"S1":{}}' }]],
   ["minWeekly above maxWeekly", (s) => (s.providers[1].lines.ortho.minWeekly = 5), [{ path: "providers[1].lines.ortho.minWeekly", message: "exceeds maxWeekly (4); got 5" }]],
   ["negative maxWeekly", (s) => (s.providers[1].lines.ortho.maxWeekly = -1), [{ path: "providers[1].lines.ortho.maxWeekly", message: "must be a number ≥ 0 (referrals/week); got -1" }]],
-  ["plan ceiling of 1", (s) => (s.plan.maxUtilisation = 1), [{ path: "plan.maxUtilisation", message: "must be a utilisation ceiling in (0, 1); got 1" }]],
+  ["plan ceiling above 1", (s) => (s.plan.maxUtilisation = 1.05), [{ path: "plan.maxUtilisation", message: "must be a utilisation ceiling in (0, 1]; got 1.05" }]],
   ["plan maxKm of 0", (s) => (s.plan.maxKm = 0), [{ path: "plan.maxKm", message: "must be a number > 0 (km); got 0" }]],
   // Periods
   ["empty periods", (s) => (s.periods = []), [{ path: "periods", message: "must list at least one period (or be left out); got []" }]],
