@@ -9,11 +9,23 @@ export default [
   route("sign-out", "routes/sign-out.tsx"),
   route("welcome", "routes/welcome.tsx"),
   route("invitations/:token", "routes/invitations.$token.tsx"),
-  route("o/:org/members", "routes/o.$org.members.tsx"),
   route("dev/mailbox", "routes/dev.mailbox.tsx"),
-  route("o/:org/billing", "routes/o.$org.billing.tsx"),
-  route("o/:org/billing/success", "routes/o.$org.billing.success.tsx"),
-  route("o/:org/billing/cancel", "routes/o.$org.billing.cancel.tsx"),
   route("api/stripe/webhook", "routes/api.stripe.webhook.ts"),
+  // The scenario workspace and its JSON API (app/models/{scenarios,runs,api-tokens,csv-*}, app/auth/api-guards.server.ts)
+  route("api/v1/solve", "routes/api.v1.solve.ts"),
+  route("api/v1/o/:org/scenarios", "routes/api.v1.o.$org.scenarios.ts"),
+  route("api/v1/o/:org/scenarios/:id", "routes/api.v1.o.$org.scenarios.$id.ts"),
+  route("api/v1/o/:org/scenarios/:id/export", "routes/api.v1.o.$org.scenarios.$id.export.ts"),
+  route("api/v1/o/:org/scenarios/:id/import", "routes/api.v1.o.$org.scenarios.$id.import.ts"),
+  route("api/v1/o/:org/scenarios/:id/runs", "routes/api.v1.o.$org.scenarios.$id.runs.ts"),
+  route("api/v1/o/:org/runs/:runId", "routes/api.v1.o.$org.runs.$runId.ts"),
+  // Pages of one organisation, inside its shell (app/routes/o.$org.tsx checks membership).
+  route("o/:org", "routes/o.$org.tsx", [
+    index("routes/o.$org._index.tsx"),
+    route("members", "routes/o.$org.members.tsx"),
+    route("billing", "routes/o.$org.billing.tsx"),
+    route("billing/success", "routes/o.$org.billing.success.tsx"),
+    route("billing/cancel", "routes/o.$org.billing.cancel.tsx"),
+  ]),
   route("*", "routes/not-found.tsx"),
 ] satisfies RouteConfig;
