@@ -25,13 +25,7 @@ export type MemberChangeResult =
   | { ok: true }
   | { ok: false; reason: "not_found" | "last_administrator"; message: string };
 
-export const ROLE_LABELS: Record<Role, string> = {
-  administrator: "Administrator",
-  planner: "Planner",
-  provider_manager: "Provider manager",
-  access_officer: "Patient-access officer",
-  reader: "Reader",
-};
+export { ROLE_LABELS } from "./roles";
 
 /** "Merrow Vale Commissioning" → "merrow-vale-commissioning". */
 export function slugFromName(name: string): string {

@@ -5,7 +5,8 @@
 import { data, Form, redirect } from "react-router";
 import { requireUser } from "~/auth/guards.server";
 import { acceptInvitation, findInvitationByToken, invitationProblem, type InvitationProblem } from "~/models/invitations.server";
-import { getMembership, ROLE_LABELS } from "~/models/organisations.server";
+import { getMembership } from "~/models/organisations.server";
+import { ROLE_LABELS } from "~/models/roles";
 import type { Route } from "./+types/invitations.$token";
 
 const NOT_FOUND = "This invitation link is not valid. Check that you copied the whole link from the e-mail.";

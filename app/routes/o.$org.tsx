@@ -7,7 +7,7 @@ import { Outlet } from "react-router";
 import { requireMembership } from "~/auth/guards.server";
 import { AppShell, type ShellNavItem } from "~/components/app-shell";
 import type { Role } from "~/db/schema";
-import { ROLE_LABELS } from "~/models/organisations.server";
+import { ROLE_LABELS } from "~/models/roles";
 import { displayName } from "~/models/users.server";
 import type { Route } from "./+types/o.$org";
 

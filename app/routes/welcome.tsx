@@ -6,7 +6,8 @@ import { data, Form, redirect, useNavigation } from "react-router";
 import { z } from "zod";
 import { requireUser } from "~/auth/guards.server";
 import { acceptInvitation, listInvitationsForUser } from "~/models/invitations.server";
-import { createOrganisation, listOrganisationsForUser, ROLE_LABELS } from "~/models/organisations.server";
+import { createOrganisation, listOrganisationsForUser } from "~/models/organisations.server";
+import { ROLE_LABELS } from "~/models/roles";
 import { displayName } from "~/models/users.server";
 import type { Route } from "./+types/welcome";
 
