@@ -35,7 +35,7 @@ export function hashInvitationToken(token: string): string {
 export function maskEmail(email: string): string {
   const [local, domain] = email.split("@");
   if (!domain) return "an address we cannot show";
-  return `${local.slice(0, 1)}${"•".repeat(Math.max(local.length - 1, 2))}@${domain}`;
+  return `${local.slice(0, 1)}•••@${domain}`; // a fixed mask, so the length says nothing either
 }
 
 /** Why this person cannot use this invitation now, or undefined when they can. */
