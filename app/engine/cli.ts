@@ -1,0 +1,67 @@
+/**
+ * `npm run solve -- FILE.json [--compact]`: reads a scenario in the exchange format, solves every
+ * rule on every line (and period), and prints the result JSON (`equilibra/result@1`) on stdout.
+ *
+ * Exit codes (README.md, "The command line"):
+ *   0  solved; the result is on stdout.
+ *   2  the input cannot be used: no file named, the file cannot be read, it is not JSON, or the
+ *      scenario is invalid — stderr names the file and each offending field path and value.
+ *   3  no steady state (demand above capacity with no outside option): stderr names each line,
+ *      its sites and the shortfall in referrals/week. When the scenario itself is fine and only
+ *      some periods lack a steady state, the result is still printed (those periods say so).
+ *   1  an unexpected failure inside the engine (a defect: please report it).
+ */
+import { readFileSync } from "node:fs";
+import { NoSteadyStateError, ScenarioInputError } from "./problem";
+import { parseScenario } from "./scenario";
+import { solveScenario } from "./solve-scenario";
+
+const USAGE = "Usage: npm run solve -- FILE.json [--compact]";
+
+function fail(code: number, message: string): number {
+  process.stderr.write(`${message}\n`);
+  return code;
+}
+
+function main(args: readonly string[]): number {
+  const compact = args.includes("--compact");
+  const files = args.filter((arg) => !arg.startsWith("--"));
+  const unknown = args.filter((arg) => arg.startsWith("--") && arg !== "--compact");
+  if (unknown.length > 0) return fail(2, `Unknown option ${unknown.join(", ")}.\n${USAGE}`);
+  if (files.length !== 1) return fail(2, `${files.length === 0 ? "No scenario file given." : "Give exactly one scenario file."}\n${USAGE}`);
+  const file = files[0];
+
+  let text: string;
+  try {
+    text = readFileSync(file, "utf8");
+  } catch (error) {
+    const reason = error instanceof Error && "code" in error ? String(error.code) : String(error);
+    return fail(2, `Cannot read scenario file "${file}": ${reason === "ENOENT" ? "no such file" : reason}.`);
+  }
+  let json: unknown;
+  try {
+    json = JSON.parse(text);
+  } catch (error) {
+    return fail(2, `Scenario file "${file}" could not be parsed as JSON: ${error instanceof Error ? error.message : String(error)}`);
+  }
+
+  try {
+    const result = solveScenario(parseScenario(json));
+    process.stdout.write(`${JSON.stringify(result, null, compact ? undefined : 2)}\n`);
+    const periodsWithout = (result.periods ?? []).flatMap((period) =>
+      Object.values(period.lines).flatMap((line) => line.noSteadyState ?? []),
+    );
+    if (periodsWithout.length > 0) {
+      return fail(3, `Scenario file "${file}" solved, but some periods have no steady state:\n${new NoSteadyStateError(periodsWithout).message}`);
+    }
+    return 0;
+  } catch (error) {
+    if (error instanceof ScenarioInputError) {
+      return fail(2, `Invalid scenario in "${file}" (${error.issues.length} ${error.issues.length === 1 ? "issue" : "issues"}):\n${error.issues.map((issue) => `  ${issue.path}: ${issue.message}`).join("\n")}`);
+    }
+    if (error instanceof NoSteadyStateError) return fail(3, `Scenario file "${file}" has no steady state:\n${error.message}`);
+    return fail(1, `Equilibra's engine failed on "${file}" (a defect, please report it): ${error instanceof Error ? (error.stack ?? error.message) : String(error)}`);
+  }
+}
+
+process.exitCode = main(process.argv.slice(2));

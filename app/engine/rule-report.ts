@@ -1,0 +1,320 @@
+/**
+ * One rule's result on one service line, as the result format reports it (PRODUCT.md, "Result
+ * JSON"): totals, each site's inflow, utilisation, waits and share within the standard, each
+ * practice's flows, balking, wait, travel and cost, and equity across practices and deprivation
+ * deciles.
+ *
+ * What counts where (README.md, "What each output means"):
+ *  - `totalCost` is the rule's objective: routine referrals only (urgent ones are fixed at their
+ *    nearest site under every rule), Σ flows × (wait + km/κ) + balkers' reservation costs.
+ *  - `servedPerWeek` counts every referral seen publicly (urgent + routine), so served + balked
+ *    is the line's demand; `meanWaitWeeks` and `meanKm` are means over those served.
+ *  - `shareWithinStandard` is the share of routine patients whose queue wait is within the
+ *    line's standard (urgent patients are seen first and are not counted in it).
+ *  - A site's `inflow` is urgent + routine referrals/week; `meanWaitWeeks` their mean wait.
+ * Numbers that have no finite value (a site overloaded by a fixed rule) are reported as null.
+ */
+import type { LineBuild } from "./build-problem";
+import { allocationTotalCost } from "./allocation-cost";
+import { balkingCost } from "./outside-option";
+import type { Allocation, SolveDiagnostics } from "./problem";
+import type { Scenario } from "./scenario";
+import { siteMetrics } from "./site-wait";
+
+/** Utilisation at or above this is flagged (Bagust, Place & Posnett 1999, BMJ 319:155–158). */
+export const UTILISATION_WARNING = 0.85;
+
+/** Flows below this (referrals/week) are left out of a practice's `flows`: rounding dust of the solvers. */
+const FLOW_REPORT_THRESHOLD = 1e-12;
+
+/** What every rule's solver hands back (the fixed rules add their overloads). */
+export interface RuleSolution {
+  allocation: Allocation;
+  /** Routine-class wait per site (weeks). */
+  siteWait: Float64Array;
+  diagnostics: SolveDiagnostics;
+  overloads?: { siteId: string; demand: number; capacity: number; shortfall: number }[];
+  /** The plan's verdict; "infeasible" comes with `infeasibilities` and no allocation. */
+  status?: "solved" | "infeasible" | "notConverged";
+  infeasibilities?: string[];
+}
+
+export interface ProviderReport {
+  id: string;
+  name: string | null;
+  sector: "public" | "independent";
+  /** Urgent + routine referrals/week. */
+  inflow: number;
+  utilisation: number | null;
+  meanWaitWeeks: number | null;
+  shareWithinStandard: number | null;
+  urgentInflow: number;
+  routineInflow: number;
+  routineWaitWeeks: number | null;
+  urgentWaitWeeks: number | null;
+  /** Referrals/week the site can take in a steady state (teams × rate per team, or the pathway's bottleneck). */
+  capacity: number;
+  warning?: string;
+}
+
+export interface SourceReport {
+  id: string;
+  /** All referrals/week of the line from this practice (urgent + routine). */
+  demand: number;
+  balked: number;
+  meanWaitWeeks: number | null;
+  meanKm: number | null;
+  /** Mean cost per referral (weeks-equivalent), balkers at their reservation cost included. */
+  meanCost: number | null;
+  urgentPerWeek: number;
+  urgentSiteId: string | null;
+  /** Referrals/week to each site, urgent included. */
+  flows: Record<string, number>;
+}
+
+export interface DecileReport {
+  decile: number;
+  sources: number;
+  demandPerWeek: number;
+  balkedPerWeek: number;
+  balkedShare: number;
+  meanWaitWeeks: number | null;
+  meanKm: number | null;
+  meanCost: number | null;
+}
+
+export interface EquityReport {
+  /** Spread across practices of the mean cost per referral (weeks-equivalent). */
+  meanCostAcrossSources: { min: number | null; max: number | null; range: number | null; standardDeviation: number | null };
+  /** Practices grouped by deprivation decile (1 = most deprived); practices without a decile are left out. */
+  byDeprivationDecile: DecileReport[];
+}
+
+export interface RuleReport {
+  /**
+   * "solved"; "notConverged" (figures are the last iterate); "overloaded" (a fixed rule sends a
+   * site more patients with no outside option than it can take: see `overloads`); "infeasible"
+   * (the plan's constraints cannot all hold: see `infeasibilities`; no allocation is reported).
+   */
+  status: "solved" | "notConverged" | "overloaded" | "infeasible";
+  converged: boolean;
+  iterations: number;
+  relativeGap: number | null;
+  totalCost: number | null;
+  servedPerWeek: number;
+  balkedPerWeek: number;
+  meanWaitWeeks: number | null;
+  meanKm: number | null;
+  shareWithinStandard: number | null;
+  urgentPerWeek: number;
+  routineMeanWaitWeeks: number | null;
+  equity: EquityReport;
+  warnings: string[];
+  infeasibilities?: string[];
+  /** Sites the rule overloads (a fixed rule sending more captive patients than they can take). */
+  overloads?: { siteId: string; demand: number; capacity: number; shortfall: number }[];
+  providers: ProviderReport[];
+  sources: SourceReport[];
+}
+
+/** A finite number, or null where the model has no finite value (JSON has no Infinity). */
+export function finite(value: number): number | null {
+  return Number.isFinite(value) ? value : null;
+}
+
+/** Assembles the report of one rule's solution on one line. */
+export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleSolution): RuleReport {
+  if (solution.status === "infeasible") return infeasibleReport(build, solution);
+  const { problem, siteSpecs, urgentInflow, urgentDemand, urgentSite, standardWeeks } = build;
+  const { n, m } = problem;
+  const allocation = solution.allocation;
+  const warnings = [...solution.diagnostics.warnings];
+
+  const routineInflow = new Float64Array(m);
+  for (let i = 0; i < n; i++) for (let j = 0; j < m; j++) routineInflow[j] += allocation.flow[i * m + j];
+
+  const siteWaitUrgent = new Float64Array(m);
+  const siteWaitRoutine = new Float64Array(m);
+  let servedWait = 0;
+  let servedKm = 0;
+  let served = 0;
+  let withinRoutine = 0;
+  let routineServed = 0;
+  let routineWaitSum = 0;
+  const providers: ProviderReport[] = build.providerIndex.map((index, j) => {
+    const provider = scenario.providers[index];
+    const capacity = build.fullCapacity[j];
+    const overloaded = routineInflow[j] >= problem.sites[j].capacity && routineInflow[j] > 0;
+    const metrics = siteMetrics(siteSpecs[j], urgentInflow[j], routineInflow[j], standardWeeks);
+    const routineWait = overloaded ? Infinity : metrics.routineWait;
+    const meanWait = overloaded ? Infinity : metrics.meanWait;
+    siteWaitUrgent[j] = metrics.urgentWait;
+    siteWaitRoutine[j] = routineWait;
+    const inflow = urgentInflow[j] + routineInflow[j];
+    if (inflow > 0) servedWait += inflow * meanWait;
+    served += inflow;
+    if (routineInflow[j] > 0) {
+      withinRoutine += routineInflow[j] * (overloaded ? 0 : metrics.shareWithinStandard);
+      routineWaitSum += routineInflow[j] * routineWait;
+      routineServed += routineInflow[j];
+    }
+    const report: ProviderReport = {
+      id: provider.id,
+      name: provider.name ?? null,
+      sector: provider.sector,
+      inflow,
+      utilisation: finite(metrics.utilisation),
+      meanWaitWeeks: finite(meanWait),
+      shareWithinStandard: overloaded ? 0 : finite(metrics.shareWithinStandard),
+      urgentInflow: urgentInflow[j],
+      routineInflow: routineInflow[j],
+      routineWaitWeeks: finite(routineWait),
+      urgentWaitWeeks: finite(metrics.urgentWait),
+      capacity,
+    };
+    if (metrics.utilisation >= UTILISATION_WARNING) {
+      report.warning =
+        `utilisation ${(metrics.utilisation * 100).toFixed(1)}% is at or above ${UTILISATION_WARNING * 100}%: ` +
+        `waits rise steeply near capacity, the more so the fewer teams a site has`;
+      warnings.push(`Site ${provider.id}: ${report.warning}.`);
+    }
+    return report;
+  });
+
+  let balked = 0;
+  const sources: SourceReport[] = [];
+  const sourceCosts: { cost: number; demand: number; decile: number | null; balked: number; wait: number; km: number; served: number }[] = [];
+  for (let i = 0; i < n; i++) {
+    const source = scenario.sources[build.sourceIndex[i]];
+    const flows: Record<string, number> = {};
+    let sourceServed = 0;
+    let sourceWait = 0;
+    let sourceKm = 0;
+    let sourceCost = 0;
+    for (let j = 0; j < m; j++) {
+      const pair = i * m + j;
+      const routine = allocation.flow[pair];
+      const urgent = urgentSite[i] === j ? urgentDemand[i] : 0;
+      const flow = routine + urgent;
+      if (flow <= FLOW_REPORT_THRESHOLD) continue;
+      flows[problem.siteIds[j]] = flow;
+      sourceServed += flow;
+      sourceKm += flow * problem.km[pair];
+      if (routine > 0) {
+        sourceWait += routine * siteWaitRoutine[j];
+        sourceCost += routine * (siteWaitRoutine[j] + problem.travelCost[pair]);
+      }
+      if (urgent > 0) {
+        sourceWait += urgent * siteWaitUrgent[j];
+        sourceCost += urgent * (siteWaitUrgent[j] + problem.travelCost[pair]);
+      }
+    }
+    const sourceBalked = allocation.balked[i];
+    balked += sourceBalked;
+    servedKm += sourceKm;
+    sourceCost += balkingCost(sourceBalked, problem.demand[i], problem.outsideCost[i], problem.outsideSpread[i]);
+    const demand = problem.demand[i] + urgentDemand[i];
+    sources.push({
+      id: source.id,
+      demand,
+      balked: sourceBalked,
+      meanWaitWeeks: sourceServed > 0 ? finite(sourceWait / sourceServed) : null,
+      meanKm: sourceServed > 0 ? sourceKm / sourceServed : null,
+      meanCost: demand > 0 ? finite(sourceCost / demand) : null,
+      urgentPerWeek: urgentDemand[i],
+      urgentSiteId: urgentSite[i] >= 0 ? problem.siteIds[urgentSite[i]] : null,
+      flows,
+    });
+    sourceCosts.push({ cost: sourceCost, demand, decile: source.deprivationDecile ?? null, balked: sourceBalked, wait: sourceWait, km: sourceKm, served: sourceServed });
+  }
+
+  const totalCost = allocationTotalCost(problem, allocation, solution.siteWait);
+  if (!solution.diagnostics.converged && !(solution.overloads?.length ?? 0)) {
+    warnings.push("The solver did not converge: figures are the last iterate, not an equilibrium or optimum.");
+  }
+  const urgentTotal = urgentInflow.reduce((total, value) => total + value, 0);
+  const overloaded = (solution.overloads?.length ?? 0) > 0;
+  return {
+    status: overloaded ? "overloaded" : solution.diagnostics.converged ? "solved" : "notConverged",
+    converged: solution.diagnostics.converged,
+    iterations: solution.diagnostics.iterations,
+    relativeGap: finite(solution.diagnostics.relativeGap),
+    totalCost: finite(totalCost),
+    servedPerWeek: served,
+    balkedPerWeek: balked,
+    meanWaitWeeks: served > 0 ? finite(servedWait / served) : null,
+    meanKm: served > 0 ? servedKm / served : null,
+    shareWithinStandard: routineServed > 0 ? withinRoutine / routineServed : null,
+    urgentPerWeek: urgentTotal,
+    routineMeanWaitWeeks: routineServed > 0 ? finite(routineWaitSum / routineServed) : null,
+    equity: equityOf(sourceCosts),
+    warnings,
+    ...(solution.overloads && solution.overloads.length > 0 ? { overloads: solution.overloads } : {}),
+    providers,
+    sources,
+  };
+}
+
+/** A plan whose constraints cannot all hold: the reasons, and no allocation at all. */
+function infeasibleReport(build: LineBuild, solution: RuleSolution): RuleReport {
+  const infeasibilities = solution.infeasibilities ?? [];
+  return {
+    status: "infeasible",
+    converged: false,
+    iterations: solution.diagnostics.iterations,
+    relativeGap: null,
+    totalCost: null,
+    servedPerWeek: 0,
+    balkedPerWeek: 0,
+    meanWaitWeeks: null,
+    meanKm: null,
+    shareWithinStandard: null,
+    urgentPerWeek: build.urgentInflow.reduce((total, value) => total + value, 0),
+    routineMeanWaitWeeks: null,
+    equity: { meanCostAcrossSources: { min: null, max: null, range: null, standardDeviation: null }, byDeprivationDecile: [] },
+    warnings: [...solution.diagnostics.warnings, ...infeasibilities],
+    infeasibilities,
+    providers: [],
+    sources: [],
+  };
+}
+
+function equityOf(rows: { cost: number; demand: number; decile: number | null; balked: number; wait: number; km: number; served: number }[]): EquityReport {
+  const means = rows.filter((row) => row.demand > 0).map((row) => ({ mean: row.cost / row.demand, demand: row.demand }));
+  const finiteMeans = means.filter((row) => Number.isFinite(row.mean));
+  let spread: EquityReport["meanCostAcrossSources"] = { min: null, max: null, range: null, standardDeviation: null };
+  if (finiteMeans.length === means.length && means.length > 0) {
+    const min = Math.min(...means.map((row) => row.mean));
+    const max = Math.max(...means.map((row) => row.mean));
+    const weight = means.reduce((total, row) => total + row.demand, 0);
+    const average = means.reduce((total, row) => total + row.mean * row.demand, 0) / weight;
+    const variance = means.reduce((total, row) => total + row.demand * (row.mean - average) ** 2, 0) / weight;
+    spread = { min, max, range: max - min, standardDeviation: Math.sqrt(variance) };
+  }
+  const deciles = new Map<number, { sources: number; demand: number; balked: number; wait: number; km: number; served: number; cost: number }>();
+  for (const row of rows) {
+    if (row.decile === null) continue;
+    const entry = deciles.get(row.decile) ?? { sources: 0, demand: 0, balked: 0, wait: 0, km: 0, served: 0, cost: 0 };
+    entry.sources += 1;
+    entry.demand += row.demand;
+    entry.balked += row.balked;
+    entry.wait += row.wait;
+    entry.km += row.km;
+    entry.served += row.served;
+    entry.cost += row.cost;
+    deciles.set(row.decile, entry);
+  }
+  const byDeprivationDecile = [...deciles.entries()]
+    .sort(([a], [b]) => a - b)
+    .map(([decile, entry]) => ({
+      decile,
+      sources: entry.sources,
+      demandPerWeek: entry.demand,
+      balkedPerWeek: entry.balked,
+      balkedShare: entry.demand > 0 ? entry.balked / entry.demand : 0,
+      meanWaitWeeks: entry.served > 0 ? finite(entry.wait / entry.served) : null,
+      meanKm: entry.served > 0 ? entry.km / entry.served : null,
+      meanCost: entry.demand > 0 ? finite(entry.cost / entry.demand) : null,
+    }));
+  return { meanCostAcrossSources: spread, byDeprivationDecile };
+}

@@ -1,0 +1,279 @@
+/**
+ * Solves a whole scenario: every rule on every service line, the price of anarchy per line and
+ * overall, and — when the scenario has periods — the same per period (SIPP: each period a
+ * stationary problem), warm-started from the period before. Produces the result format
+ * `equilibra/result@1` of PRODUCT.md; every field there keeps its name, the rest are additions.
+ *
+ * Failure policy:
+ *  - the scenario as given (no period factors) has no steady state on some line → throws
+ *    `NoSteadyStateError` naming each line, its sites and the shortfall (nothing is returned);
+ *  - a period without a steady state is reported in that period's result (`noSteadyState` on
+ *    the lines concerned) and in the top-level warnings — not hidden, and not fatal for the
+ *    periods that do have one;
+ *  - a fixed rule that overloads a site (a captive patient stream it cannot absorb) reports
+ *    `converged: false` with its `overloads`; patient choice may be fine on the same line.
+ */
+import { buildLineProblems, type LineBuild, type Shortfall } from "./build-problem";
+import { solveChoice } from "./equilibrium";
+import { solveCapacityShare, solveNearest } from "./fixed-rules";
+import { solveLogit } from "./logit";
+import { solveOptimum } from "./optimum";
+import { solvePlan } from "./plan";
+import { NoSteadyStateError, type RuleKey } from "./problem";
+import { finite, reportRule, UTILISATION_WARNING, type RuleReport, type RuleSolution } from "./rule-report";
+import type { Scenario, ScenarioPeriod } from "./scenario";
+
+export const RESULT_SCHEMA = "equilibra/result@1";
+
+/** The cautions carried by every result (PRODUCT.md, "Cautions to show"). */
+export const RESULT_CAUTIONS = [
+  "Results are planning estimates for populations from a queueing model, not decisions about individual patients.",
+  "Clinical prioritisation stays with clinicians; local access policy, contracts and patients' legal right to choose prevail.",
+  "Read every figure beside its assumptions and data date, and weigh efficiency together with equity.",
+] as const;
+
+/** The order rules are run and reported in. */
+export const RULE_ORDER: readonly RuleKey[] = ["choice", "choiceLogit", "optimum", "nearest", "capacityShare", "plan"];
+
+export interface SolveScenarioOptions {
+  /** Only these rules (default: all that apply — choiceLogit with a logit choice model, plan when `plan` is set). */
+  rules?: readonly RuleKey[];
+  /** Solve the periods too when the scenario has them. Default true. */
+  periods?: boolean;
+}
+
+export interface LineReport {
+  name: string;
+  standardWeeks: number;
+  /** totalCost(choice) / totalCost(optimum); null when either is missing, infinite or the optimum costs 0. */
+  priceOfAnarchy: number | null;
+  demandPerWeek: number;
+  urgentPerWeek: number;
+  /** Σ sites' capacity (referrals/week). */
+  capacityPerWeek: number;
+  rules: Partial<Record<RuleKey, RuleReport>>;
+  warnings: string[];
+  /** Present when this line has no steady state in this period. */
+  noSteadyState?: Shortfall[];
+}
+
+export interface PeriodReport {
+  id: string;
+  label: string;
+  weeks: number;
+  demandFactor: number | Record<string, number>;
+  teamsFactor: number | Record<string, number>;
+  priceOfAnarchy: number | null;
+  lines: Record<string, LineReport>;
+  warnings: string[];
+}
+
+export interface ScenarioResult {
+  schema: typeof RESULT_SCHEMA;
+  name: string | null;
+  priceOfAnarchy: number | null;
+  lines: Record<string, LineReport>;
+  periods?: PeriodReport[];
+  assumptions: {
+    kmPerWeek: number;
+    kmPerWeekNote: string;
+    circuity: number;
+    travel: string;
+    choiceModel: Scenario["choiceModel"];
+    utilisationWarning: number;
+    urgentReferrals: string;
+    periodTeams: string;
+    plan: Scenario["plan"] | null;
+    standardWeeks: Record<string, number>;
+  };
+  cautions: string[];
+  warnings: string[];
+}
+
+/** Previous solutions per line and rule, to warm-start the next period. */
+type WarmStarts = Map<string, Partial<Record<RuleKey, RuleSolution>>>;
+
+/**
+ * Solves the scenario (already checked by `parseScenario`). Throws `NoSteadyStateError` when the
+ * scenario as given has none on some line.
+ */
+export function solveScenario(scenario: Scenario, options: SolveScenarioOptions = {}): ScenarioResult {
+  const rules = rulesToRun(scenario, options.rules);
+  const builds = buildLineProblems(scenario);
+  const shortfalls = builds.flatMap((build) => build.shortfalls);
+  if (shortfalls.length > 0) throw new NoSteadyStateError(shortfalls);
+
+  const warm: WarmStarts = new Map();
+  const lines = solveLines(scenario, builds, rules, warm);
+  const warnings = collectWarnings(lines, "");
+
+  let periods: PeriodReport[] | undefined;
+  if (scenario.periods && options.periods !== false) {
+    periods = [];
+    // Each period starts from the previous one's solution (the first from the stationary solve):
+    // consecutive periods differ by a few percent, so the solvers start close to the answer.
+    for (const period of scenario.periods) {
+      const report = solvePeriod(scenario, period, rules, warm);
+      periods.push(report);
+      warnings.push(...report.warnings.map((warning) => `Period ${period.id}: ${warning}`));
+    }
+  }
+
+  return {
+    schema: RESULT_SCHEMA,
+    name: scenario.name ?? null,
+    priceOfAnarchy: overallPriceOfAnarchy(lines),
+    lines,
+    ...(periods ? { periods } : {}),
+    assumptions: assumptionsOf(scenario),
+    cautions: [...RESULT_CAUTIONS],
+    warnings,
+  };
+}
+
+function rulesToRun(scenario: Scenario, requested: readonly RuleKey[] | undefined): RuleKey[] {
+  const applies = (rule: RuleKey) =>
+    rule === "choiceLogit" ? scenario.choiceModel.kind === "logit" : rule === "plan" ? Boolean(scenario.plan) : true;
+  return RULE_ORDER.filter((rule) => applies(rule) && (!requested || requested.includes(rule)));
+}
+
+function solvePeriod(scenario: Scenario, period: ScenarioPeriod, rules: RuleKey[], warm: WarmStarts): PeriodReport {
+  const builds = buildLineProblems(scenario, period);
+  const solvable = builds.filter((build) => build.shortfalls.length === 0);
+  const lines = solveLines(scenario, solvable, rules, warm);
+  const ordered: Record<string, LineReport> = {};
+  for (const build of builds) {
+    if (build.shortfalls.length === 0) {
+      ordered[build.lineId] = lines[build.lineId];
+      continue;
+    }
+    const message = new NoSteadyStateError(build.shortfalls).message;
+    ordered[build.lineId] = { ...lineHeader(build), priceOfAnarchy: null, rules: {}, warnings: [message], noSteadyState: build.shortfalls };
+  }
+  return {
+    id: period.id,
+    label: period.label ?? period.id,
+    weeks: period.weeks,
+    demandFactor: period.demandFactor,
+    teamsFactor: period.teamsFactor,
+    priceOfAnarchy: overallPriceOfAnarchy(ordered),
+    lines: ordered,
+    warnings: collectWarnings(ordered, ""),
+  };
+}
+
+function lineHeader(build: LineBuild): Pick<LineReport, "name" | "standardWeeks" | "demandPerWeek" | "urgentPerWeek" | "capacityPerWeek"> {
+  const sum = (values: Float64Array) => values.reduce((total, value) => total + value, 0);
+  return {
+    name: build.lineName,
+    standardWeeks: build.standardWeeks,
+    demandPerWeek: sum(build.problem.demand) + sum(build.urgentDemand),
+    urgentPerWeek: sum(build.urgentDemand),
+    capacityPerWeek: sum(build.fullCapacity),
+  };
+}
+
+function solveLines(scenario: Scenario, builds: LineBuild[], rules: RuleKey[], warm: WarmStarts): Record<string, LineReport> {
+  const lines: Record<string, LineReport> = {};
+  for (const build of builds) {
+    const previous = warm.get(build.lineId) ?? {};
+    const solutions: Partial<Record<RuleKey, RuleSolution>> = {};
+    const reports: Partial<Record<RuleKey, RuleReport>> = {};
+    for (const rule of rules) {
+      const solution = runRule(scenario, build, rule, previous[rule]);
+      solutions[rule] = solution;
+      reports[rule] = reportRule(scenario, build, solution);
+    }
+    warm.set(build.lineId, solutions);
+    const choice = reports.choice?.totalCost ?? null;
+    const optimum = reports.optimum?.totalCost ?? null;
+    const warnings: string[] = [];
+    for (const rule of rules) for (const warning of reports[rule]?.warnings ?? []) warnings.push(`${rule}: ${warning}`);
+    lines[build.lineId] = {
+      ...lineHeader(build),
+      priceOfAnarchy: choice !== null && optimum !== null && optimum > 0 ? choice / optimum : null,
+      rules: reports,
+      warnings,
+    };
+  }
+  return lines;
+}
+
+/** Runs one rule; a line with no routine demand needs no solver (every rule sends nobody). */
+function runRule(scenario: Scenario, build: LineBuild, rule: RuleKey, previous: RuleSolution | undefined): RuleSolution {
+  const { problem } = build;
+  const routine = problem.demand.reduce((total, value) => total + value, 0);
+  if (problem.n === 0 || problem.m === 0 || routine === 0) return emptySolution(build);
+  // Site waits of the previous period's solution are where this period's Newton iterations start.
+  const warmStartWaits = previous && previous.siteWait.every(Number.isFinite) ? previous.siteWait : undefined;
+  switch (rule) {
+    case "choice":
+      return solveChoice(problem, { warmStartWaits });
+    case "choiceLogit":
+      return solveLogit(problem, scenario.choiceModel.kind === "logit" ? scenario.choiceModel.scale : 1, { warmStartWaits });
+    case "optimum":
+      return solveOptimum(problem, { warmStartWaits });
+    case "nearest":
+      return solveNearest(problem);
+    case "capacityShare":
+      return solveCapacityShare(problem);
+    case "plan":
+      return solvePlan(problem, {
+        maxUtilisation: scenario.plan?.maxUtilisation,
+        maxKm: scenario.plan?.maxKm,
+        urgentInflow: build.urgentInflow,
+        fullCapacity: build.fullCapacity,
+        // The plan's dual method prices volume bounds with tolls on the optimum (no global wiring).
+        tolledOptimum: solveOptimum,
+      });
+  }
+}
+
+function emptySolution(build: LineBuild): RuleSolution {
+  const { n, m, sites } = build.problem;
+  return {
+    allocation: { flow: new Float64Array(n * m), balked: new Float64Array(n) },
+    siteWait: Float64Array.from(sites, (site) => site.wait(0)),
+    diagnostics: { converged: true, iterations: 0, relativeGap: 0, warnings: [] },
+  };
+}
+
+/** Σ_lines totalCost(choice) / Σ_lines totalCost(optimum), over lines where both are finite. */
+function overallPriceOfAnarchy(lines: Record<string, LineReport>): number | null {
+  let choice = 0;
+  let optimum = 0;
+  for (const line of Object.values(lines)) {
+    const c = line.rules.choice?.totalCost;
+    const o = line.rules.optimum?.totalCost;
+    if (typeof c === "number" && typeof o === "number") {
+      choice += c;
+      optimum += o;
+    }
+  }
+  return optimum > 0 ? finite(choice / optimum) : null;
+}
+
+function collectWarnings(lines: Record<string, LineReport>, prefix: string): string[] {
+  return Object.entries(lines).flatMap(([lineId, line]) => line.warnings.map((warning) => `${prefix}Line ${lineId}: ${warning}`));
+}
+
+function assumptionsOf(scenario: Scenario): ScenarioResult["assumptions"] {
+  const uploaded = scenario.travelKm ? Object.values(scenario.travelKm).reduce((total, row) => total + Object.keys(row).length, 0) : 0;
+  return {
+    kmPerWeek: scenario.kmPerWeek,
+    kmPerWeekNote:
+      "κ (km a patient would travel to wait one week less) has no settled published value: calibrate it so that the baseline " +
+      "reproduces the observed share of patients who bypass their nearest provider, and read results at 5 and 50 km/week too.",
+    circuity: scenario.circuity,
+    travel:
+      uploaded > 0
+        ? `road km from the uploaded matrix for ${uploaded} practice–site pairs; great-circle km × ${scenario.circuity} for the rest`
+        : `great-circle km × ${scenario.circuity} for every practice–site pair`,
+    choiceModel: scenario.choiceModel,
+    utilisationWarning: UTILISATION_WARNING,
+    urgentReferrals: "urgent referrals go to the nearest site offering the line and are seen ahead of routine referrals (non-preemptive priority)",
+    periodTeams: "a period's teams factor scales each site's capacity exactly: teams rounded to a whole number ≥ 1, rate per team adjusted",
+    plan: scenario.plan ?? null,
+    standardWeeks: Object.fromEntries(scenario.serviceLines.map((line) => [line.id, line.standardWeeks])),
+  };
+}
