@@ -412,9 +412,11 @@ export async function listScenarios(db: Queryable, organisationId: number, optio
       createdBy: scenarios.createdBy,
       createdAt: scenarios.createdAt,
       updatedAt: scenarios.updatedAt,
-      sourceCount: sql<number>`(select count(*)::int from ${sources} where ${sources.scenarioId} = ${scenarios.id})`,
-      siteCount: sql<number>`(select count(*)::int from ${sites} where ${sites.scenarioId} = ${scenarios.id})`,
-      lineCount: sql<number>`(select count(*)::int from ${serviceLines} where ${serviceLines.scenarioId} = ${scenarios.id})`,
+      // Spelled out: drizzle leaves columns unqualified inside a select's SQL, which would let the
+      // subqueries' "id" bind to the inner table instead of the scenario.
+      sourceCount: sql<number>`(select count(*)::int from sources where sources.scenario_id = scenarios.id)`,
+      siteCount: sql<number>`(select count(*)::int from sites where sites.scenario_id = scenarios.id)`,
+      lineCount: sql<number>`(select count(*)::int from service_lines where service_lines.scenario_id = scenarios.id)`,
     })
     .from(scenarios)
     .where(where)
