@@ -221,7 +221,7 @@ export function checkPlanLimit(standing: PlanStanding, gate: PlanGate, usage: Pl
             ok: false,
             gate,
             message:
-              `Problem size limit: this scenario has ${practices} practices × ${sites} sites = ${size.toLocaleString("en-GB")}, ` +
+              `Problem size limit: this scenario has ${practices.toLocaleString("en-GB")} practices × ${sites.toLocaleString("en-GB")} sites = ${size.toLocaleString("en-GB")}, ` +
               `and the ${plan.name} plan allows up to ${limits.problemSize.toLocaleString("en-GB")} practices × sites.` +
               upgradeHint(plan, (l) => l.problemSize >= size),
           };

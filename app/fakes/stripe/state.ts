@@ -61,6 +61,13 @@ export function addInterval(seconds: number, interval: Stripe.Price.Recurring.In
   return Math.floor(date.getTime() / 1000);
 }
 
+/** The end of the period starting at `periodStart`, counted in whole intervals from the billing anchor. */
+export function nextPeriodEnd(anchor: number, periodStart: number, interval: Stripe.Price.Recurring.Interval, count: number): number {
+  let periods = 1;
+  while (addInterval(anchor, interval, count * periods) <= periodStart) periods += 1;
+  return addInterval(anchor, interval, count * periods);
+}
+
 export function listOf<T>(data: T[], url: string): FakeList<T> {
   return { object: "list", data, has_more: false, url };
 }
@@ -268,7 +275,8 @@ export class FakeStripeState {
         const previousStatus = subscription.status;
         const previousPeriod = { start: item.current_period_start, end: item.current_period_end };
         item.current_period_start = item.current_period_end;
-        item.current_period_end = addInterval(
+        item.current_period_end = nextPeriodEnd(
+          subscription.billing_cycle_anchor,
           item.current_period_start,
           item.price.recurring?.interval ?? "month",
           item.price.recurring?.interval_count ?? 1,
