@@ -18,7 +18,7 @@ import {
   renameScenario,
 } from "../../app/models/scenarios.server";
 import { resolveVariant, VARIANT_FILES } from "../../seed/variants";
-import { useTestDatabase } from "../support/database";
+import { createTestDatabase, postgresConfigured, useTestDatabase } from "../support/database";
 
 const database = useTestDatabase();
 const demo = JSON.parse(readFileSync("seed/demo-scenario.json", "utf8")) as Record<string, unknown>;
@@ -249,6 +249,26 @@ describe("managing scenarios", () => {
 
     expect(await archiveScenario(database.db, home, id, false)).toBe(true);
     expect((await listScenarios(database.db, home)).map((s) => s.id)).toContain(id);
+  });
+});
+
+describe.runIf(postgresConfigured())("on a PostgreSQL server", () => {
+  it("round-trips the demo and the terse file exactly, and rolls back a failed import", async () => {
+    const { open, dispose } = await createTestDatabase("postgres");
+    try {
+      const [org] = await open.db.insert(organisations).values({ name: "Server body", slug: "server-body" }).returning();
+      const id = await importScenario(open.db, org.id, demo);
+      expect(await exportScenario(open.db, org.id, id)).toEqual(demo);
+      const terseId = await importScenario(open.db, org.id, terse);
+      const exported = await exportScenario(open.db, org.id, terseId);
+      const again = await importScenario(open.db, org.id, exported);
+      expect(await exportScenario(open.db, org.id, again)).toEqual(exported);
+      const before = await rowCounts(open.db);
+      await expect(importScenario(failOnInsertInto(open.db, siteLines), org.id, demo)).rejects.toThrow("injected failure");
+      expect(await rowCounts(open.db)).toEqual(before);
+    } finally {
+      await dispose();
+    }
   });
 });
 
