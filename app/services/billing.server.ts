@@ -131,6 +131,28 @@ export async function ensureCatalogue(stripe: Stripe = stripeClient()): Promise<
   return catalogue;
 }
 
+/**
+ * The start-up step: creates the catalogue if billing is configured, retrying briefly because the
+ * local fake may still be starting beside the app. Never throws: checkout retries on first use.
+ */
+export async function prepareBilling(options: { attempts?: number; delayMs?: number } = {}): Promise<Catalogue | undefined> {
+  const { STRIPE_SECRET_KEY, STRIPE_API_BASE } = config();
+  if (!STRIPE_SECRET_KEY && !STRIPE_API_BASE) return undefined;
+  const attempts = options.attempts ?? 10;
+  for (let attempt = 1; attempt <= attempts; attempt++) {
+    try {
+      return await ensureCatalogue();
+    } catch (error) {
+      if (attempt === attempts) {
+        console.warn(`billing: could not set up the plan catalogue (${error instanceof Error ? error.message : String(error)}); will retry at first checkout`);
+        return undefined;
+      }
+      await new Promise((resolve) => setTimeout(resolve, options.delayMs ?? 500));
+    }
+  }
+  return undefined;
+}
+
 async function priceIdFor(planKey: PaidPlanKey): Promise<string> {
   const signature = `${config().STRIPE_SECRET_KEY ?? ""} ${config().STRIPE_API_BASE ?? ""}`;
   const catalogue = cachedCatalogue?.signature === signature ? cachedCatalogue.catalogue : await ensureCatalogue();
