@@ -29,6 +29,7 @@
  * Infinity for that site's wait and for the total cost, instead of throwing.
  */
 
+import { balkingCost, balkingShare } from "./outside-option";
 import type { Allocation, LineProblem, SolveDiagnostics } from "./problem";
 
 export type FixedRuleKey = "nearest" | "capacityShare";
@@ -125,27 +126,19 @@ export function solveCapacityShare(problem: LineProblem, options: FixedRuleOptio
 }
 
 /**
- * Share of a stream's patients who stay when their option costs `cost`, i.e. 1 − F(cost) with
- * reservation costs uniform on [o(1−s), o(1+s)] (PRODUCT.md, the outside option).
- * `tiesStay` decides the patients exactly indifferent at a sharp threshold (s = 0, cost = o).
+ * Share of a stream's patients who stay when their option costs `cost`: 1 − F(cost), F from
+ * `outside-option.ts`. `tiesStay` decides the patients exactly indifferent at a sharp threshold
+ * (s = 0, cost = o): they stay for the upper end of the bracket, leave for the lower.
  */
 function stayingShare(cost: number, outsideCost: number, spread: number, tiesStay: boolean): number {
   if (outsideCost === Infinity) return 1;
-  if (cost === Infinity) return 0;
-  if (spread === 0) return cost < outsideCost || (tiesStay && cost === outsideCost) ? 1 : 0;
-  const low = outsideCost * (1 - spread);
-  const balking = (cost - low) / (2 * outsideCost * spread);
-  return balking <= 0 ? 1 : balking >= 1 ? 0 : 1 - balking;
+  if (tiesStay && spread === 0 && cost === outsideCost) return 1;
+  return 1 - balkingShare(cost, outsideCost, spread);
 }
 
-/**
- * Total reservation cost of the `balked` patients of a stream of `demand` patients when the
- * balkers are those with the lowest reservation costs: with r(u) = o(1−s) + 2os·u the
- * reservation cost at quantile u, demand·∫₀^{b/d} r(u) du = o(1−s)·b + o·s·b²/d.
- */
+/** Reservation cost of a stream's balkers (the lowest reservation costs leave first); 0 without an outside option. */
 function balkersCost(balked: number, demand: number, outsideCost: number, spread: number): number {
-  if (balked <= 0) return 0;
-  return outsideCost * (1 - spread) * balked + (outsideCost * spread * balked * balked) / demand;
+  return balked > 0 && outsideCost !== Infinity ? balkingCost(balked, demand, outsideCost, spread) : 0;
 }
 
 /**
@@ -319,7 +312,7 @@ export function fixedRuleCost(
       const cost = siteWait[j] + travelCost[pair];
       const staying = flow[pair];
       const leaving = Math.max(0, stream - staying);
-      actual += (staying > 0 ? staying * cost : 0) + (o === Infinity ? 0 : balkersCost(leaving, stream, o, s));
+      actual += (staying > 0 ? staying * cost : 0) + balkersCost(leaving, stream, o, s);
       if (o === Infinity) best += stream * cost;
       else {
         const optimalStaying = stream * stayingShare(cost, o, s, true);

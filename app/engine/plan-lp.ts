@@ -28,6 +28,7 @@
  * `variableLimit` variables (default 3,000) and leave larger plans to the dual method in `plan.ts`.
  */
 import solver, { type Model, type Solution } from "javascript-lp-solver";
+import { balkingCost, marginalBalkingCost } from "./outside-option";
 import type { LineProblem } from "./problem";
 
 /** Per-site volume bounds for the plan (referrals/week): lower 0 = none, upper Infinity = none. */
@@ -83,19 +84,15 @@ export function siteMarginalCost(problem: LineProblem, site: number, inflow: num
   return model.wait(inflow) + (inflow > 0 ? inflow * model.waitSlope(inflow) : 0);
 }
 
-/** Reservation costs of the b lowest-reservation patients of source i: o(1−s)b + o·s·b²/d. */
-export function balkingCost(problem: LineProblem, source: number, balked: number): number {
-  const o = problem.outsideCost[source];
+/** Reservation costs of the b lowest-reservation patients of source i (`outside-option.ts`). */
+export function sourceBalkingCost(problem: LineProblem, source: number, balked: number): number {
   if (balked <= 0) return 0;
-  const s = problem.outsideSpread[source];
-  return o * (1 - s) * balked + (o * s * balked * balked) / problem.demand[source];
+  return balkingCost(balked, problem.demand[source], problem.outsideCost[source], problem.outsideSpread[source]);
 }
 
 /** Marginal balking cost: the reservation cost of the next patient to leave, o(1−s) + 2·o·s·b/d. */
-export function balkingMarginalCost(problem: LineProblem, source: number, balked: number): number {
-  const o = problem.outsideCost[source];
-  const s = problem.outsideSpread[source];
-  return o * (1 - s) + (2 * o * s * Math.max(0, balked)) / problem.demand[source];
+export function sourceBalkingMarginalCost(problem: LineProblem, source: number, balked: number): number {
+  return marginalBalkingCost(balked, problem.demand[source], problem.outsideCost[source], problem.outsideSpread[source]);
 }
 
 /** True total cost of an allocation: Σ x·W(x) + Σ f·t + Σ B(b). */
@@ -111,7 +108,7 @@ export function planTotalCost(problem: LineProblem, flow: Float64Array, balked: 
         total += f * travelCost[i * m + j];
       }
     }
-    total += balkingCost(problem, i, balked[i]);
+    total += sourceBalkingCost(problem, i, balked[i]);
   }
   for (let j = 0; j < m; j++) total += siteCost(problem, j, inflow[j]);
   return total;
@@ -370,8 +367,8 @@ function buildModel(
     }
     const points = balkGrid[i];
     if (!points) continue;
-    const cost = (b: number) => balkingCost(problem, i, b);
-    const slope = (b: number) => balkingMarginalCost(problem, i, b);
+    const cost = (b: number) => sourceBalkingCost(problem, i, b);
+    const slope = (b: number) => sourceBalkingMarginalCost(problem, i, b);
     const segments = mode === "chord" ? chordSegments(points, cost) : tangentSegments(points, cost, slope, demand[i]);
     segments.forEach(([length, segmentSlope], k) => {
       const name = `b${i}_${k}`;
