@@ -26,6 +26,11 @@ export default [
     route("billing", "routes/o.$org.billing.tsx"),
     route("billing/success", "routes/o.$org.billing.success.tsx"),
     route("billing/cancel", "routes/o.$org.billing.cancel.tsx"),
+    route("scenarios", "routes/o.$org.scenarios.tsx"),
+    route("scenarios/:id", "routes/o.$org.scenarios.$id.tsx"),
+    route("scenarios/:id/settings", "routes/o.$org.scenarios.$id.settings.tsx"),
+    route("api", "routes/o.$org.api.tsx"),
+    route("settings/tokens", "routes/o.$org.settings.tokens.tsx"),
   ]),
   route("*", "routes/not-found.tsx"),
 ] satisfies RouteConfig;

@@ -150,8 +150,13 @@ export default function RegionMapCanvas({
             <Layer
               id="place-labels"
               type="symbol"
-              filter={["all", ["has", "name"], ["!=", ["get", "kind"], "boundary"], ["!=", ["get", "kind"], "land"]]}
-              layout={{ "text-field": ["get", "name"], "text-font": [FONT], "text-size": 12, "text-allow-overlap": false }}
+              filter={["all", ["==", ["geometry-type"], "Point"], ["has", "name"]]}
+              layout={{
+                "text-field": ["get", "name"],
+                "text-font": [FONT],
+                "text-size": ["case", ["==", ["get", "kind"], "town"], 13, 10],
+                "text-allow-overlap": false,
+              }}
               paint={{ "text-color": "#3e4650", "text-halo-color": "#ffffff", "text-halo-width": 1.2 }}
             />
           </Source>
