@@ -45,8 +45,12 @@ function expectNoLeak(outcome: Outcome, other: MatrixTenant) {
 }
 
 describe.each(PROTECTED_ROUTES)("$method $pattern — $name", (route) => {
+  // Loaders only read, so the cases of a GET row share one world; actions each get a fresh one.
+  let shared: Promise<MatrixWorld> | undefined;
+  const worldFor = (): Promise<MatrixWorld> => (route.method === "GET" ? (shared ??= buildWorld(route)) : buildWorld(route));
+
   it.each(ALL_ROLES)("as a %s of the organisation", async (role) => {
-    const world = await buildWorld(route);
+    const world = await worldFor();
     const client = await clientFor(route, world.home.members[role].user.id);
     const outcome = await send(client, route, route.path(world), route.form?.(world));
     if (route.allowed.includes(role)) {
@@ -60,7 +64,7 @@ describe.each(PROTECTED_ROUTES)("$method $pattern — $name", (route) => {
   });
 
   it.each(ALL_ROLES)("as a %s of another organisation → 404", async (role) => {
-    const world = await buildWorld(route);
+    const world = await worldFor();
     const client = await clientFor(route, world.other.members[role].user.id);
     const outcome = await send(client, route, route.path(world), route.form?.(world));
     expect(outcome.status).toBe(404);
@@ -68,7 +72,7 @@ describe.each(PROTECTED_ROUTES)("$method $pattern — $name", (route) => {
   });
 
   it("signed out → sign-in", async () => {
-    const world = await buildWorld(route);
+    const world = await worldFor();
     const outcome = await send(await clientFor(route), route, route.path(world), route.form?.(world));
     expect(outcome.status).toBe(302);
     expect(outcome.location).toMatch(/\/sign-in\?returnTo=/);
@@ -77,7 +81,7 @@ describe.each(PROTECTED_ROUTES)("$method $pattern — $name", (route) => {
   if (route.foreign) {
     const foreign = route.foreign;
     it.each(route.allowed)("as a %s naming another organisation's records → 404, theirs untouched", async (role) => {
-      const world = await buildWorld(route);
+      const world = await worldFor();
       const client = await clientFor(route, world.home.members[role].user.id);
       const path = (foreign.path ?? route.path)(world);
       const outcome = await send(client, route, path, (foreign.form ?? route.form)?.(world));
