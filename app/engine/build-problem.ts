@@ -37,6 +37,58 @@ export function greatCircleKm(lat1: number, lon1: number, lat2: number, lon2: nu
   return 2 * EARTH_RADIUS_KM * Math.atan2(Math.sqrt(h), Math.sqrt(Math.max(0, 1 - h)));
 }
 
+/** sin and cos of half the latitude and longitude, and cos of the latitude: what the haversine needs per point. */
+function halfAngles(points: readonly { lat: number; lon: number }[]) {
+  const count = points.length;
+  const sinLat = new Float64Array(count);
+  const cosLat = new Float64Array(count);
+  const sinLon = new Float64Array(count);
+  const cosLon = new Float64Array(count);
+  const cosFull = new Float64Array(count);
+  const half = Math.PI / 360;
+  points.forEach((point, k) => {
+    sinLat[k] = Math.sin(point.lat * half);
+    cosLat[k] = Math.cos(point.lat * half);
+    sinLon[k] = Math.sin(point.lon * half);
+    cosLon[k] = Math.cos(point.lon * half);
+    cosFull[k] = Math.cos(point.lat * 2 * half);
+  });
+  return { sinLat, cosLat, sinLon, cosLon, cosFull };
+}
+
+/**
+ * Road km for every source–site pair (row-major by source): the uploaded km where `travelKm`
+ * has the pair, otherwise great-circle km × circuity. Same haversine as `greatCircleKm`, with
+ * the half-angle differences expanded (sin(b/2 − a/2) = sin(b/2)cos(a/2) − cos(b/2)sin(a/2)) so
+ * the inner loop has no trigonometry — a national instance has millions of pairs.
+ */
+export function pairKm(
+  sources: readonly { id: string; lat: number; lon: number }[],
+  sites: readonly { id: string; lat: number; lon: number }[],
+  circuity: number,
+  travelKm?: Record<string, Record<string, number>>,
+): Float64Array {
+  const n = sources.length;
+  const m = sites.length;
+  const km = new Float64Array(n * m);
+  const a = halfAngles(sources);
+  const b = halfAngles(sites);
+  const scale = 2 * EARTH_RADIUS_KM * circuity;
+  for (let i = 0; i < n; i++) {
+    const sinLat = a.sinLat[i], cosLat = a.cosLat[i], sinLon = a.sinLon[i], cosLon = a.cosLon[i], cosFull = a.cosFull[i];
+    const row = i * m;
+    for (let j = 0; j < m; j++) {
+      const dLat = b.sinLat[j] * cosLat - b.cosLat[j] * sinLat;
+      const dLon = b.sinLon[j] * cosLon - b.cosLon[j] * sinLon;
+      const h = Math.min(1, dLat * dLat + cosFull * b.cosFull[j] * dLon * dLon);
+      km[row + j] = scale * Math.atan2(Math.sqrt(h), Math.sqrt(1 - h));
+    }
+    const uploaded = travelKm?.[sources[i].id];
+    if (uploaded) for (let j = 0; j < m; j++) km[row + j] = uploaded[sites[j].id] ?? km[row + j];
+  }
+  return km;
+}
+
 /** A line with more demand that must be served than capacity, for `NoSteadyStateError`. */
 export interface Shortfall {
   lineId: string;
@@ -136,19 +188,14 @@ export function buildLineProblem(scenario: Scenario, lineId: string, period?: Sc
   const n = sourceIndex.length;
   const m = providerIndex.length;
 
-  const km = new Float64Array(n * m);
+  const km = pairKm(
+    sourceIndex.map((index) => scenario.sources[index]),
+    providerIndex.map((index) => scenario.providers[index]),
+    scenario.circuity,
+    scenario.travelKm ?? undefined,
+  );
   const travelCost = new Float64Array(n * m);
-  for (let i = 0; i < n; i++) {
-    const source = scenario.sources[sourceIndex[i]];
-    const uploaded = scenario.travelKm?.[source.id];
-    for (let j = 0; j < m; j++) {
-      const provider = scenario.providers[providerIndex[j]];
-      const override = uploaded?.[provider.id];
-      const distance = override ?? greatCircleKm(source.lat, source.lon, provider.lat, provider.lon) * scenario.circuity;
-      km[i * m + j] = distance;
-      travelCost[i * m + j] = distance / scenario.kmPerWeek;
-    }
-  }
+  for (let pair = 0; pair < n * m; pair++) travelCost[pair] = km[pair] / scenario.kmPerWeek;
 
   const demand = new Float64Array(n);
   const outsideCost = new Float64Array(n);

@@ -3,7 +3,7 @@
  * referrals at the nearest site, period factors and the no-steady-state check.
  */
 import { describe, expect, it } from "vitest";
-import { EARTH_RADIUS_KM, buildLineProblem, buildLineProblems, greatCircleKm, scaleTeams } from "~/engine/build-problem";
+import { EARTH_RADIUS_KM, buildLineProblem, buildLineProblems, greatCircleKm, pairKm, scaleTeams } from "~/engine/build-problem";
 import { parseScenario } from "~/engine/scenario";
 import { siteMetrics } from "~/engine/site-wait";
 
@@ -151,5 +151,27 @@ describe("no steady state", () => {
     const json = scenarioJson();
     json.sources[1].demand.ortho = 50;
     expect(buildLineProblem(parseScenario(json), "ortho").shortfalls).toEqual([]);
+  });
+});
+
+describe("pairKm", () => {
+  it("agrees with greatCircleKm × circuity on every pair and takes uploaded km where given", () => {
+    const sources = [
+      { id: "A", lat: 54.1, lon: -2.3 },
+      { id: "B", lat: -33.9, lon: 151.2 },
+      { id: "C", lat: 0, lon: 179.9 },
+    ];
+    const sites = [
+      { id: "X", lat: 54.2, lon: -2.1 },
+      { id: "Y", lat: 51.5, lon: -0.1 },
+      { id: "Z", lat: 0, lon: -179.9 },
+    ];
+    const km = pairKm(sources, sites, 1.3, { B: { Y: 7 } });
+    for (let i = 0; i < 3; i++) {
+      for (let j = 0; j < 3; j++) {
+        const expected = i === 1 && j === 1 ? 7 : greatCircleKm(sources[i].lat, sources[i].lon, sites[j].lat, sites[j].lon) * 1.3;
+        expect(km[i * 3 + j]).toBeCloseTo(expected, 6);
+      }
+    }
   });
 });
