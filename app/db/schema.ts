@@ -312,6 +312,22 @@ export const runs = pgTable(
   (t) => [index("runs_scenario").on(t.scenarioId)],
 );
 
+/**
+ * The planner's recommendation printed in a run's decision brief. Kept beside the run (which never
+ * changes once stored) so that a brief can be reworded without re-running the scenario.
+ */
+export const runBriefs = pgTable("run_briefs", {
+  runId: integer("run_id")
+    .primaryKey()
+    .references(() => runs.id, { onDelete: "cascade" }),
+  organisationId: integer("organisation_id")
+    .notNull()
+    .references(() => organisations.id, { onDelete: "cascade" }),
+  recommendation: text("recommendation").notNull().default(""),
+  updatedBy: integer("updated_by").references(() => users.id, { onDelete: "set null" }),
+  updatedAt: timestamp("updated_at", { withTimezone: true }).notNull().defaultNow(),
+});
+
 /** Region geography for the map (land, towns, boundaries) as GeoJSON, one row per organisation. */
 export const regionMaps = pgTable("region_maps", {
   organisationId: integer("organisation_id")
