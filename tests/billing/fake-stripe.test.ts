@@ -6,6 +6,9 @@
  * and billing-cycle dates ("Billing cycle": an anchor on the 31st bills on the month's last day).
  */
 import { createHmac } from "node:crypto";
+import { mkdtempSync, rmSync } from "node:fs";
+import os from "node:os";
+import path from "node:path";
 import { createServer, type Server } from "node:http";
 import type { AddressInfo } from "node:net";
 import Stripe from "stripe";
@@ -245,6 +248,31 @@ describe("webhook delivery", () => {
     const deliveries = (await (await fetch(`${fake.url}/_test/events`)).json()).deliveries as Array<{ attempts: number; status: number }>;
     expect(deliveries[0]).toMatchObject({ attempts: 2, status: 200 });
     expect(received).toHaveLength(3);
+  });
+});
+
+describe("state file", () => {
+  it("keeps customers, subscriptions and the clock across a restart", async () => {
+    const directory = mkdtempSync(path.join(os.tmpdir(), "fake-stripe-state-"));
+    const stateFile = path.join(directory, "state.json");
+    try {
+      const first = await startFakeStripe({ stateFile });
+      const client = new Stripe("sk_test_x", { host: "127.0.0.1", port: first.port, protocol: "http", maxNetworkRetries: 0, telemetry: false });
+      const customer = await client.customers.create({ name: "Kept" });
+      await fetch(`${first.url}/_test/advance-clock`, { method: "POST", body: new URLSearchParams({ days: "3" }) });
+      const clockBefore = first.state.now();
+      await first.close();
+
+      const second = await startFakeStripe({ stateFile });
+      const again = new Stripe("sk_test_x", { host: "127.0.0.1", port: second.port, protocol: "http", maxNetworkRetries: 0, telemetry: false });
+      const kept = await again.customers.retrieve(customer.id);
+      expect(kept.deleted).toBeUndefined();
+      expect(kept).toMatchObject({ id: customer.id, name: "Kept" });
+      expect(second.state.now()).toBeGreaterThanOrEqual(clockBefore);
+      await second.close();
+    } finally {
+      rmSync(directory, { recursive: true, force: true });
+    }
   });
 });
 

@@ -3,7 +3,8 @@
  * app can talk to it through the real Stripe SDK (`host`, `port`, `protocol: "http"`).
  *
  *   npx tsx app/fakes/stripe/server.ts --port 12111 \
- *     --webhook-url http://localhost:3000/api/stripe/webhook --webhook-secret whsec_local
+ *     --webhook-url http://localhost:3000/api/stripe/webhook --webhook-secret whsec_local \
+ *     [--state-file data/fake-stripe.json]
  *
  * API: /v1/products, /v1/prices, /v1/customers, /v1/checkout/sessions, /v1/subscriptions,
  * /v1/invoices, /v1/events. Pages: /pay/{session} (hosted payment), /invoice/{id}.
@@ -14,6 +15,7 @@
  * Idempotency-Key whose first response is replayed. Events are delivered one at a time, in order,
  * signed with the webhook secret.
  */
+import { existsSync, readFileSync, renameSync, writeFileSync } from "node:fs";
 import { createServer, type IncomingMessage, type ServerResponse } from "node:http";
 import type { AddressInfo } from "node:net";
 import { pathToFileURL } from "node:url";
@@ -30,7 +32,7 @@ import type {
   FakeSubscription,
 } from "./objects";
 import { checkoutPage, invoicePage, notFoundPage, TEST_CARDS } from "./pages";
-import { FakeStripeError, FakeStripeState, listOf, missing, newId } from "./state";
+import { FakeStripeError, FakeStripeState, listOf, missing, newId, type FakeStripeSnapshot } from "./state";
 
 export interface FakeStripeOptions {
   /** 0 picks a free port. */
@@ -38,6 +40,8 @@ export interface FakeStripeOptions {
   /** Where events are POSTed; without it events are only recorded. */
   webhookUrl?: string;
   webhookSecret?: string;
+  /** A JSON file to keep the fake's state in across restarts (the app's database remembers customers). */
+  stateFile?: string;
 }
 
 export interface FakeStripe {
@@ -147,6 +151,16 @@ export async function startFakeStripe(options: FakeStripeOptions = {}): Promise<
         record.error = error instanceof Error ? error.message : String(error);
       }
     }
+  }
+
+  if (options.stateFile && existsSync(options.stateFile)) {
+    state.restore(JSON.parse(readFileSync(options.stateFile, "utf8")) as FakeStripeSnapshot);
+  }
+  function persist(): void {
+    if (!options.stateFile) return;
+    // Write-then-rename, so a crash mid-write leaves the previous state rather than half a file.
+    writeFileSync(`${options.stateFile}.tmp`, JSON.stringify(state.snapshot()));
+    renameSync(`${options.stateFile}.tmp`, options.stateFile);
   }
 
   state.onEvent = (event) => {
@@ -577,11 +591,15 @@ export async function startFakeStripe(options: FakeStripeOptions = {}): Promise<
   }
 
   const server = createServer((request, response) => {
-    handle(request, response).catch((error: unknown) => {
-      console.error("fake stripe: request failed", error);
-      if (!response.headersSent) response.writeHead(500, { "content-type": "application/json" });
-      response.end(JSON.stringify({ error: { type: "api_error", message: "The fake Stripe server failed; see its log." } }));
-    });
+    handle(request, response)
+      .then(() => {
+        if (request.method !== "GET") persist();
+      })
+      .catch((error: unknown) => {
+        console.error("fake stripe: request failed", error);
+        if (!response.headersSent) response.writeHead(500, { "content-type": "application/json" });
+        response.end(JSON.stringify({ error: { type: "api_error", message: "The fake Stripe server failed; see its log." } }));
+      });
   });
   await new Promise<void>((resolve, reject) => {
     server.once("error", reject);
@@ -615,11 +633,12 @@ if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) 
   const port = Number(argument("port") ?? process.env.FAKE_STRIPE_PORT ?? 12111);
   const webhookUrl = argument("webhook-url") ?? process.env.FAKE_STRIPE_WEBHOOK_URL;
   const webhookSecret = argument("webhook-secret") ?? process.env.STRIPE_WEBHOOK_SECRET;
+  const stateFile = argument("state-file");
   if (webhookUrl && !webhookSecret) {
     console.error("fake stripe: --webhook-url needs --webhook-secret (or STRIPE_WEBHOOK_SECRET) to sign events");
     process.exit(2);
   }
-  const fake = await startFakeStripe({ port, webhookUrl, webhookSecret });
+  const fake = await startFakeStripe({ port, webhookUrl, webhookSecret, stateFile });
   console.log(`Fake Stripe listening on ${fake.url}${webhookUrl ? `, delivering events to ${webhookUrl}` : " (events recorded, not delivered)"}`);
   const stop = () => {
     fake.close().finally(() => process.exit(0));

@@ -72,6 +72,18 @@ export function listOf<T>(data: T[], url: string): FakeList<T> {
   return { object: "list", data, has_more: false, url };
 }
 
+export interface FakeStripeSnapshot {
+  products: FakeProduct[];
+  prices: FakePrice[];
+  customers: FakeCustomer[];
+  sessions: FakeCheckoutSession[];
+  subscriptions: FakeSubscription[];
+  invoices: FakeInvoice[];
+  events: FakeEvent[];
+  clockOffset: number;
+  invoiceCounter: number;
+}
+
 export class FakeStripeState {
   products = new Map<string, FakeProduct>();
   prices = new Map<string, FakePrice>();
@@ -84,7 +96,7 @@ export class FakeStripeState {
   idempotent = new Map<string, { status: number; body: string }>();
   /** Seconds added to the wall clock by the test control. */
   clockOffset = 0;
-  private invoiceCounter = 0;
+  invoiceCounter = 0;
   /** Called for every new event, in order. */
   onEvent: (event: FakeEvent) => void = () => {};
 
@@ -101,6 +113,34 @@ export class FakeStripeState {
     this.events = [];
     this.clockOffset = 0;
     this.invoiceCounter = 0;
+  }
+
+  /** Everything worth keeping across restarts of the fake (idempotency keys expire anyway). */
+  snapshot(): FakeStripeSnapshot {
+    return {
+      products: [...this.products.values()],
+      prices: [...this.prices.values()],
+      customers: [...this.customers.values()],
+      sessions: [...this.sessions.values()],
+      subscriptions: [...this.subscriptions.values()],
+      invoices: [...this.invoices.values()],
+      events: this.events,
+      clockOffset: this.clockOffset,
+      invoiceCounter: this.invoiceCounter,
+    };
+  }
+
+  restore(snapshot: FakeStripeSnapshot): void {
+    this.reset();
+    for (const product of snapshot.products) this.products.set(product.id, product);
+    for (const price of snapshot.prices) this.prices.set(price.id, price);
+    for (const customer of snapshot.customers) this.customers.set(customer.id, customer);
+    for (const session of snapshot.sessions) this.sessions.set(session.id, session);
+    for (const subscription of snapshot.subscriptions) this.subscriptions.set(subscription.id, subscription);
+    for (const invoice of snapshot.invoices) this.invoices.set(invoice.id, invoice);
+    this.events = snapshot.events;
+    this.clockOffset = snapshot.clockOffset;
+    this.invoiceCounter = snapshot.invoiceCounter;
   }
 
   emit(type: FakeEventType, object: FakeObject, previous?: Record<string, unknown>): void {
