@@ -375,9 +375,18 @@ function solvePlanDual(
       let step = jacobi;
       const tollChange = toll[j] - previousToll[j];
       const inflowChange = inflow[j] - previousInflow[j];
-      if (tollChange !== 0 && Number.isFinite(inflowChange) && inflowChange / tollChange < 0) {
-        const secant = (target - inflow[j]) / (inflowChange / tollChange);
-        if (Math.sign(secant) === Math.sign(jacobi)) step = Math.sign(jacobi) * Math.min(Math.max(Math.abs(secant), Math.abs(jacobi)), 20 * Math.abs(jacobi));
+      if (tollChange !== 0 && Number.isFinite(inflowChange)) {
+        const response = inflowChange / tollChange;
+        if (response < 0) {
+          const secant = (target - inflow[j]) / response;
+          if (Math.sign(secant) === Math.sign(jacobi)) {
+            step = Math.sign(jacobi) * Math.min(Math.max(Math.abs(secant), Math.abs(jacobi)), 20 * Math.abs(jacobi));
+          }
+        } else if (Math.abs(inflowChange) <= 1e-12 * Math.max(1, sites[j].capacity) && Math.sign(tollChange) === Math.sign(jacobi)) {
+          // The last change of toll moved nobody: double it, so that a bound no toll can meet
+          // is recognised (the toll runs away) in a few dozen steps rather than millions.
+          step = Math.sign(jacobi) * Math.max(Math.abs(jacobi), 2 * Math.abs(tollChange));
+        }
       }
       if (target === upper) steps[j] = Math.max(0, toll[j] + step) - toll[j];
       else steps[j] = Math.min(0, toll[j] + step) - toll[j];

@@ -1,10 +1,10 @@
 /**
- * Small builders for the rules' tests: a LineProblem from plain arrays, and an M/M/c site
- * wait model written out here independently of the engine's kernels (Erlang C by its
- * factorial sum, exact for the few servers used in these tests), so that a test of a rule
- * does not depend on another module being right.
+ * Small builders for the rules' tests: a LineProblem from plain arrays, M/M/c sites, and an
+ * M/M/c wait written out here independently of the engine's kernels (Erlang C by its factorial
+ * sum, exact for the few servers used in these tests) for expected values.
  */
 import type { LineProblem, SiteWaitModel } from "~/engine/problem";
+import { createSiteWaitModel } from "~/engine/site-wait";
 
 /** M/M/c mean queue wait Wq = C(c, a)/(cμ − λ) by Erlang's sum (Erlang 1917; Kleinrock 1975 vol. 1 §3.5, from memory). */
 export function mmcWait(servers: number, rate: number, arrival: number): number {
@@ -22,18 +22,12 @@ export function mmcWait(servers: number, rate: number, arrival: number): number 
   return waitingProbability / (capacity - arrival);
 }
 
-/** An M/M/c site with no urgent class: routine capacity cμ, FCFS queue wait. */
+/**
+ * An M/M/c site (no urgent class) from the engine's site wait model, whose exact wait slope the
+ * optimum needs; expected values in the tests use `mmcWait` above, written out independently.
+ */
 export function mmcSite(servers: number, rate: number): SiteWaitModel {
-  const capacity = servers * rate;
-  return {
-    capacity,
-    wait: (x) => mmcWait(servers, rate, x),
-    waitSlope: (x) => {
-      if (x >= capacity) return Infinity;
-      const h = 1e-6 * Math.max(1e-3, capacity - x);
-      return (mmcWait(servers, rate, x + h) - mmcWait(servers, rate, x - Math.min(h, x))) / (h + Math.min(h, x));
-    },
-  };
+  return createSiteWaitModel({ teams: servers, ratePerTeam: rate });
 }
 
 export interface ProblemSpec {
