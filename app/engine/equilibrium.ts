@@ -12,9 +12,16 @@
 import type { Allocation, LineProblem, SolveDiagnostics } from "./problem";
 import { NoSteadyStateError } from "./problem";
 import { relativeGap } from "./allocation-cost";
-import { type CostView, LogitWorkspace, costScaleOf, evaluateLogit, initialTheta, logitNewton } from "./logit-newton";
+import { type CostView, LogitWorkspace, costScaleOf, evaluateLogit, initialTheta, logitContinuation, logitNewton } from "./logit-newton";
 import { type SiteCostCurve, SiteInverse, waitCurve } from "./site-cost-curve";
 import { wardropFinish } from "./wardrop-finish";
+
+/**
+ * θ at which continuation hands over to the exact finish, times the instance's cost scale: high
+ * enough that the tied options are told apart from the rest, low enough that Newton at that θ
+ * is still cheap and well conditioned.
+ */
+const FINISH_SCALE = 1e5;
 
 export interface SolveOptions {
   /** Per-site cost (weeks) added to every option at the site; never counted in total cost. Default none. */
@@ -110,31 +117,27 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   const view = buildCostView(problem, curves, settings.siteToll);
   const warnings: string[] = [];
   const w = new Float64Array(m);
-  for (let j = 0; j < m; j++) w[j] = settings.warmStartWaits?.[j] ?? view.inverses[j].emptyCost;
+  for (let j = 0; j < m; j++) w[j] = view.inverses[j].closed ? Infinity : (settings.warmStartWaits?.[j] ?? view.inverses[j].emptyCost);
   const workspace = new LogitWorkspace(n, m);
   let iterations = 0;
   if (view.totalDemand <= 0 || m === 0) {
     return finishOutcome(problem, curves, view, new Float64Array(n * m), new Float64Array(n), settings, 0, warnings);
   }
 
-  // Continuation: θ up by decades from a smooth start to θ_finish = 1e6 / cost scale.
-  let theta = initialTheta(view, w);
+  // Continuation: θ up by decades from a smooth start to θ_finish = FINISH_SCALE / cost scale.
+  const startTheta = initialTheta(view, w);
   let budget = settings.maxIterations;
   // The first stage's solution tells the cost scale that θ_finish is measured against.
-  const first = logitNewton(view, theta, w, workspace, 1e-3 * view.totalDemand, budget);
+  const first = logitNewton(view, startTheta, w, workspace, 1e-3 * view.totalDemand, budget);
   iterations += first.iterations;
   budget -= first.iterations;
-  let finishTheta = Math.max(theta, 1e6 / costScaleOf(view, workspace));
-  if (theta < finishTheta) theta = Math.min(theta * 10, finishTheta);
+  let finishTheta = Math.max(startTheta, FINISH_SCALE / costScaleOf(view, workspace));
+  let fromTheta = Math.min(startTheta * 10, finishTheta);
   for (let attempt = 0; attempt < 3; attempt++) {
-    for (;;) {
-      const last = theta >= finishTheta;
-      const outcome = logitNewton(view, theta, w, workspace, (last ? 1e-9 : 1e-3) * view.totalDemand, Math.max(budget, 1));
-      iterations += outcome.iterations;
-      budget -= outcome.iterations;
-      if (last || budget <= 0) break;
-      theta = Math.min(theta * 10, finishTheta);
-    }
+    const path = logitContinuation(view, w, workspace, fromTheta, finishTheta, 1e-9 * view.totalDemand, Math.max(budget, 1));
+    iterations += path.iterations;
+    budget -= path.iterations;
+    const theta = path.theta;
     const finish = wardropFinish(view, w, theta);
     iterations += finish.iterations;
     if (finish.ok) {
@@ -147,8 +150,8 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
       return annotate(finishOutcome(problem, curves, view, flow, balked, settings, iterations, warnings), ruleName);
     }
     // Retry from a sharper logit solution.
+    fromTheta = finishTheta * 10;
     finishTheta *= 100;
-    theta = Math.min(theta * 10, finishTheta);
   }
   throw new Error("unreachable");
 }

@@ -23,9 +23,10 @@
  * e^{-40} ≈ 4e-18 and is skipped, so each source touches only the few sites that can be near
  * its cheapest; H is assembled from those alone (work Σ_i K_i², K_i the kept options).
  */
-import { logitBalking } from "./outside-option";
+import { logitBalkingShare } from "./outside-option";
 import { choleskySolveInPlace } from "./dense-linear";
 import type { SiteInverse } from "./site-cost-curve";
+import { nearestSites } from "./nearest-sites";
 
 /** Options costlier than the cheapest by more than this many 1/θ carry shares below e^-40. */
 export const LOGIT_CUTOFF = 40;
@@ -72,7 +73,8 @@ export class LogitWorkspace {
     this.load = new Float64Array(m);
     this.loadSlope = new Float64Array(m);
     this.residual = new Float64Array(m);
-    this.hessian = new Float64Array(m * m);
+    // Dense Newton systems need m²; conjugate gradients only five work vectors.
+    this.hessian = new Float64Array(m <= DENSE_LIMIT ? m * m : 5 * m);
     this.step = new Float64Array(m);
     this.trial = new Float64Array(m);
   }
@@ -93,8 +95,16 @@ export class LogitWorkspace {
  * Logit split at site costs w: fills the workspace's kept options and shares, served demand,
  * site inflows and the residual R. Returns ‖R‖₂.
  */
+export const evaluationCount = { value: 0 };
+
 export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws: LogitWorkspace): number {
+  evaluationCount.value++;
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
+  const lists = nearestSites(pairCost, n, m);
+  const { sites: listed, count, bound, perSource } = lists;
+  let lowestSiteCost = Infinity;
+  for (let j = 0; j < m; j++) if (w[j] < lowestSiteCost) lowestSiteCost = w[j];
+  const width = LOGIT_CUTOFF / theta;
   ws.inflow.fill(0);
   let kept = 0;
   for (let i = 0; i < n; i++) {
@@ -104,17 +114,30 @@ export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws
     ws.inclusiveCost[i] = Infinity;
     if (!(demand[i] > 0)) continue;
     const row = i * m;
+    const base = i * perSource;
+    const listLength = count[i];
     let cheapest = Infinity;
-    for (let j = 0; j < m; j++) {
+    for (let k = 0; k < listLength; k++) {
+      const j = listed[base + k];
       const g = w[j] + pairCost[row + j];
       if (g < cheapest) cheapest = g;
     }
+    // Sites off the list cost at least lowestSiteCost + bound: scan the row only if that could matter.
+    const scanRow = lowestSiteCost + bound[i] <= cheapest + width;
+    if (scanRow) {
+      for (let j = 0; j < m; j++) {
+        const g = w[j] + pairCost[row + j];
+        if (g < cheapest) cheapest = g;
+      }
+    }
     if (cheapest === Infinity) continue;
-    ws.ensureCapacity(kept + m);
-    const limit = cheapest + LOGIT_CUTOFF / theta;
+    if (kept + m > ws.columns.length) ws.ensureCapacity(kept + m);
+    const limit = cheapest + width;
     let sum = 0;
     const first = kept;
-    for (let j = 0; j < m; j++) {
+    const total = scanRow ? m : listLength;
+    for (let k = 0; k < total; k++) {
+      const j = scanRow ? k : listed[base + k];
       const g = w[j] + pairCost[row + j];
       if (g <= limit) {
         const weight = Math.exp(-theta * (g - cheapest));
@@ -126,10 +149,10 @@ export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws
     }
     const inclusive = cheapest - Math.log(sum) / theta;
     ws.inclusiveCost[i] = inclusive;
-    const balking = logitBalking(inclusive, outsideCost[i], outsideSpread[i], theta);
-    const served = demand[i] * (1 - balking.share);
+    const balkingShare = logitBalkingShare(inclusive, outsideCost[i], outsideSpread[i], theta, ws.servedSlope, i);
+    const served = demand[i] * (1 - balkingShare);
     ws.served[i] = served;
-    ws.servedSlope[i] = demand[i] * balking.slope;
+    ws.servedSlope[i] *= demand[i];
     for (let k = first; k < kept; k++) {
       ws.shares[k] /= sum;
       ws.inflow[ws.columns[k]] += served * ws.shares[k];
@@ -157,20 +180,105 @@ function assembleHessian(view: CostView, theta: number, ws: LogitWorkspace): voi
     const start = ws.rowStart[i];
     const end = ws.rowStart[i + 1];
     if (end === start) continue;
-    const q = ws.served[i];
-    const stiff = theta * q;
+    const stiff = theta * ws.served[i];
     const rankOne = stiff - ws.servedSlope[i];
     for (let a = start; a < end; a++) {
       const ja = ws.columns[a];
       const pa = ws.shares[a];
-      const rowA = ja * m;
-      h[rowA + ja] += stiff * pa;
+      h[ja * m + ja] += stiff * pa;
       const coefficient = rankOne * pa;
-      // Columns are stored in increasing site order, so jb ≤ ja: the lower triangle.
-      for (let b = start; b <= a; b++) h[rowA + ws.columns[b]] -= coefficient * ws.shares[b];
+      for (let b = start; b <= a; b++) {
+        const jb = ws.columns[b];
+        h[ja >= jb ? ja * m + jb : jb * m + ja] -= coefficient * ws.shares[b];
+      }
     }
   }
   for (let j = 0; j < m; j++) h[j * m + j] += ws.loadSlope[j];
+}
+
+/** out = H·v without forming H (work proportional to the kept options). */
+function multiplyHessian(view: CostView, theta: number, ws: LogitWorkspace, v: Float64Array, out: Float64Array): void {
+  const { n, m } = view;
+  for (let j = 0; j < m; j++) out[j] = ws.loadSlope[j] * v[j];
+  for (let i = 0; i < n; i++) {
+    const start = ws.rowStart[i];
+    const end = ws.rowStart[i + 1];
+    if (end === start) continue;
+    const stiff = theta * ws.served[i];
+    const rankOne = stiff - ws.servedSlope[i];
+    let dot = 0;
+    for (let k = start; k < end; k++) dot += ws.shares[k] * v[ws.columns[k]];
+    for (let k = start; k < end; k++) {
+      const j = ws.columns[k];
+      out[j] += ws.shares[k] * (stiff * v[j] - rankOne * dot);
+    }
+  }
+}
+
+/** Sites beyond which the Newton system is solved by conjugate gradients instead of Cholesky. */
+const DENSE_LIMIT = 120;
+
+/**
+ * Newton direction H·Δ = R. Dense Cholesky for small m; for large m, conjugate gradients with a
+ * Jacobi preconditioner (Hestenes & Stiefel 1952) on the implicit H — each product costs only
+ * the kept options, and an inexact direction is all Newton needs far from the solution.
+ */
+function newtonDirection(view: CostView, theta: number, ws: LogitWorkspace): void {
+  const { m, n } = view;
+  if (m <= DENSE_LIMIT) {
+    assembleHessian(view, theta, ws);
+    ws.step.set(ws.residual);
+    choleskySolveInPlace(ws.hessian, ws.step, m);
+    return;
+  }
+  const diagonal = ws.hessian.subarray(0, m);
+  for (let j = 0; j < m; j++) diagonal[j] = ws.loadSlope[j];
+  for (let i = 0; i < n; i++) {
+    const stiff = theta * ws.served[i];
+    const rankOne = stiff - ws.servedSlope[i];
+    for (let k = ws.rowStart[i]; k < ws.rowStart[i + 1]; k++) {
+      const p = ws.shares[k];
+      diagonal[ws.columns[k]] += stiff * p - rankOne * p * p;
+    }
+  }
+  const r = ws.hessian.subarray(m, 2 * m);
+  const z = ws.hessian.subarray(2 * m, 3 * m);
+  const d = ws.hessian.subarray(3 * m, 4 * m);
+  const hd = ws.hessian.subarray(4 * m, 5 * m);
+  const x = ws.step;
+  x.fill(0);
+  r.set(ws.residual);
+  let rz = 0;
+  let target = 0;
+  for (let j = 0; j < m; j++) {
+    z[j] = r[j] / diagonal[j];
+    d[j] = z[j];
+    rz += r[j] * z[j];
+    target += r[j] * r[j];
+  }
+  target *= 1e-20;
+  for (let iteration = 0; iteration < 4 * m; iteration++) {
+    multiplyHessian(view, theta, ws, d, hd);
+    let curvature = 0;
+    for (let j = 0; j < m; j++) curvature += d[j] * hd[j];
+    if (!(curvature > 0)) break;
+    const alpha = rz / curvature;
+    let rr = 0;
+    for (let j = 0; j < m; j++) {
+      x[j] += alpha * d[j];
+      r[j] -= alpha * hd[j];
+      rr += r[j] * r[j];
+    }
+    if (rr <= target) break;
+    let rzNext = 0;
+    for (let j = 0; j < m; j++) {
+      z[j] = r[j] / diagonal[j];
+      rzNext += r[j] * z[j];
+    }
+    const beta = rzNext / rz;
+    rz = rzNext;
+    for (let j = 0; j < m; j++) d[j] = z[j] + beta * d[j];
+  }
 }
 
 export interface NewtonOutcome {
@@ -203,19 +311,13 @@ export function logitNewton(
   let iterations = 0;
   while (absoluteSum(ws.residual) > tolerance && iterations < maxIterations) {
     iterations++;
-    assembleHessian(view, theta, ws);
-    ws.step.set(ws.residual);
-    choleskySolveInPlace(ws.hessian, ws.step, m);
+    newtonDirection(view, theta, ws);
     // A full Newton step can jump far when a site is nearly empty or nearly full; no site cost
-    // needs to move by more than the spread of the pruned options (40/θ) plus the current cost.
+    // needs to move by more than a few times the width of the kept options plus its own size.
     let largest = 0;
-    for (let j = 0; j < m; j++) largest = Math.max(largest, Math.abs(ws.step[j]));
-    let scale = 1;
-    const cap = 4 * LOGIT_CUTOFF / theta + maxAbs(w);
-    if (largest > cap) scale = cap / largest;
-    let alpha = scale;
+    for (let j = 0; j < m; j++) if (Number.isFinite(w[j])) largest = Math.max(largest, Math.abs(ws.step[j]) / (4 * LOGIT_CUTOFF / theta + Math.abs(w[j])));
+    let alpha = largest > 1 ? 1 / largest : 1;
     let accepted = false;
-    ws.trial.set(w);
     for (let attempt = 0; attempt < 50; attempt++) {
       for (let j = 0; j < m; j++) ws.trial[j] = w[j] + alpha * ws.step[j];
       const trialNorm = evaluateLogit(view, theta, ws.trial, ws);
@@ -237,10 +339,49 @@ export function logitNewton(
   return { iterations, residual, converged: residual <= tolerance };
 }
 
-function maxAbs(values: Float64Array): number {
-  let largest = 0;
-  for (let k = 0; k < values.length; k++) largest = Math.max(largest, Math.abs(values[k]));
-  return largest;
+/**
+ * Continuation in θ: solve at `fromTheta`, then at 10× larger θ, …, up to `toTheta`, each stage
+ * to a loose tolerance and the last to `finalTolerance` (Σ|R|, referrals/week). Between stages the
+ * costs are extrapolated along the path w(θ) ≈ w* + a/θ (its asymptotic form) when that lowers
+ * the residual, so each stage starts close to its solution.
+ */
+export function logitContinuation(
+  view: CostView,
+  w: Float64Array,
+  ws: LogitWorkspace,
+  fromTheta: number,
+  toTheta: number,
+  finalTolerance: number,
+  maxIterations: number,
+): NewtonOutcome & { theta: number } {
+  const { m } = view;
+  let theta = Math.min(fromTheta, toTheta);
+  let iterations = 0;
+  const previous = new Float64Array(m);
+  let previousTheta = 0;
+  for (;;) {
+    const last = theta >= toTheta;
+    const outcome = logitNewton(view, theta, w, ws, last ? finalTolerance : 1e-3 * view.totalDemand, Math.max(maxIterations - iterations, 1));
+    iterations += outcome.iterations;
+    if (last || iterations >= maxIterations) return { ...outcome, iterations, theta };
+    const nextTheta = Math.min(theta * 10, toTheta);
+    if (previousTheta > 0) {
+      const current = Float64Array.from(w);
+      const currentNorm = evaluateLogit(view, nextTheta, current, ws);
+      for (let j = 0; j < m; j++) {
+        if (!Number.isFinite(w[j])) continue;
+        const limit = (theta * w[j] - previousTheta * previous[j]) / (theta - previousTheta);
+        ws.trial[j] = limit + (w[j] - limit) * (theta / nextTheta);
+      }
+      const predicted = Float64Array.from(ws.trial);
+      if (evaluateLogit(view, nextTheta, predicted, ws) < currentNorm) {
+        previous.set(w);
+        w.set(predicted);
+      } else previous.set(w);
+    } else previous.set(w);
+    previousTheta = theta;
+    theta = nextTheta;
+  }
 }
 
 /**
@@ -272,9 +413,7 @@ export function initialTheta(view: CostView, w: Float64Array): number {
     const s = [...values].sort((a, b) => a - b);
     return s[Math.floor(s.length / 2)];
   };
-  let halfLoadCost = 0;
-  for (const inverse of view.inverses) halfLoadCost += inverse.curve.cost(inverse.curve.capacity / 2) - inverse.emptyCost;
-  halfLoadCost /= Math.max(view.inverses.length, 1);
+  const halfLoadCost = meanHalfLoadCost(view);
   const costScale = Math.max(median(costs), halfLoadCost, 1e-9);
   let theta = 1 / costScale;
   const spread = median(spreads);
@@ -293,8 +432,18 @@ export function costScaleOf(view: CostView, ws: LogitWorkspace): number {
       weight += view.demand[i];
     }
   }
-  let halfLoadCost = 0;
-  for (const inverse of view.inverses) halfLoadCost += inverse.curve.cost(inverse.curve.capacity / 2) - inverse.emptyCost;
-  halfLoadCost /= Math.max(view.inverses.length, 1);
+  const halfLoadCost = meanHalfLoadCost(view);
   return Math.max(weight > 0 ? total / weight : 0, halfLoadCost, 1e-9);
+}
+
+/** Mean rise of site cost from empty to half capacity over open sites. */
+function meanHalfLoadCost(view: CostView): number {
+  let total = 0;
+  let count = 0;
+  for (const inverse of view.inverses) {
+    if (inverse.closed) continue;
+    total += inverse.curve.cost(inverse.curve.capacity / 2) - inverse.emptyCost;
+    count++;
+  }
+  return count > 0 ? total / count : 0;
 }

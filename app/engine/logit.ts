@@ -30,7 +30,7 @@ import {
   siteLoads,
 } from "./equilibrium";
 import { allocationTotalCost } from "./allocation-cost";
-import { LogitWorkspace, evaluateLogit, initialTheta, logitNewton } from "./logit-newton";
+import { LogitWorkspace, evaluateLogit, initialTheta, logitContinuation } from "./logit-newton";
 import { waitCurve } from "./site-cost-curve";
 
 export function solveLogit(problem: LineProblem, theta: number, options: SolveOptions = {}): SolveResult {
@@ -41,20 +41,11 @@ export function solveLogit(problem: LineProblem, theta: number, options: SolveOp
   const curves = problem.sites.map(waitCurve);
   const view = buildCostView(problem, curves, settings.siteToll);
   const w = new Float64Array(m);
-  for (let j = 0; j < m; j++) w[j] = settings.warmStartWaits?.[j] ?? view.inverses[j].emptyCost;
+  for (let j = 0; j < m; j++) w[j] = view.inverses[j].closed ? Infinity : (settings.warmStartWaits?.[j] ?? view.inverses[j].emptyCost);
   const workspace = new LogitWorkspace(n, m);
   const warnings: string[] = [];
-  let iterations = 0;
-  let budget = settings.maxIterations;
-  let stage = Math.min(initialTheta(view, w), theta);
-  for (;;) {
-    const last = stage >= theta;
-    const outcome = logitNewton(view, stage, w, workspace, (last ? 1e-13 : 1e-3) * view.totalDemand, Math.max(budget, 1));
-    iterations += outcome.iterations;
-    budget -= outcome.iterations;
-    if (last || budget <= 0) break;
-    stage = Math.min(stage * 10, theta);
-  }
+  const path = logitContinuation(view, w, workspace, Math.min(initialTheta(view, w), theta), theta, 1e-13 * view.totalDemand, settings.maxIterations);
+  const iterations = path.iterations;
   const allocation = logitAllocation(view, workspace);
   const load = siteLoads(problem, allocation.flow);
   const siteWait = Float64Array.from(load, (x, j) => problem.sites[j].wait(Math.max(x, 0)));

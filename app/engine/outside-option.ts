@@ -118,16 +118,39 @@ function logisticAbove(x: number, v: number, theta: number): number {
 }
 
 export function logitBalking(inclusiveCost: number, outsideCost: number, spread: number, theta: number): LogitBalking {
-  if (!Number.isFinite(outsideCost)) return { share: 0, slope: 0 };
-  if (!Number.isFinite(inclusiveCost)) return { share: 1, slope: 0 };
-  const { low, high } = reservationRange(outsideCost, spread);
+  const slope = new Float64Array(1);
+  const share = logitBalkingShare(inclusiveCost, outsideCost, spread, theta, slope, 0);
+  return { share, slope: slope[0] };
+}
+
+/** `logitBalking` without allocation (the solvers' hot loop): returns the share, writes the slope to slopeOut[index]. */
+export function logitBalkingShare(
+  inclusiveCost: number,
+  outsideCost: number,
+  spread: number,
+  theta: number,
+  slopeOut: Float64Array,
+  index: number,
+): number {
+  if (!(outsideCost < Infinity)) {
+    slopeOut[index] = 0;
+    return 0;
+  }
+  if (!(inclusiveCost < Infinity)) {
+    slopeOut[index] = 0;
+    return 1;
+  }
+  const low = outsideCost * (1 - spread);
+  const high = outsideCost * (1 + spread);
   // Below this width the divided difference loses digits: use the sharp formula (error O(θ²(b−a)²)).
   if ((high - low) * theta < 1e-6) {
     // P_out = 1/(1 + e^{θ(o − V)}).
     const balk = logisticAbove(inclusiveCost, outsideCost, theta);
-    return { share: balk, slope: theta * balk * (1 - balk) };
+    slopeOut[index] = theta * balk * (1 - balk);
+    return balk;
   }
   const share = (softmin(high, inclusiveCost, theta) - softmin(low, inclusiveCost, theta)) / (high - low);
   const slope = (logisticAbove(high, inclusiveCost, theta) - logisticAbove(low, inclusiveCost, theta)) / (high - low);
-  return { share: Math.min(Math.max(share, 0), 1), slope: Math.max(slope, 0) };
+  slopeOut[index] = Math.max(slope, 0);
+  return Math.min(Math.max(share, 0), 1);
 }

@@ -59,8 +59,16 @@ export class SiteInverse {
   private readonly maxLoadSlope: number;
   private guess = 0;
 
+  /** A site with no capacity for routine patients (e.g. urgent work fills it): never used, cost Infinity. */
+  readonly closed: boolean;
+
   constructor(readonly curve: SiteCostCurve) {
-    this.emptyCost = curve.cost(0);
+    this.emptyCost = curve.capacity > 0 ? curve.cost(0) : Infinity;
+    this.closed = !Number.isFinite(this.emptyCost);
+    if (this.closed) {
+      this.maxLoadSlope = 1;
+      return;
+    }
     const half = curve.capacity / 2;
     // A scale for "flat": the mean slope from empty to half capacity. Near an empty M/M/c site
     // with c ≥ 2 the wait is flat (W ∝ x^c), so dx/dw is unbounded; capping it at a million
@@ -71,6 +79,7 @@ export class SiteInverse {
 
   /** Inflow x with cost(x) = w (x < 0 below the empty cost, by the linear extension). */
   load(w: number): number {
+    if (this.closed) return 0;
     if (w <= this.emptyCost) return (w - this.emptyCost) * this.maxLoadSlope;
     const { curve } = this;
     let lo = 0;
@@ -97,6 +106,7 @@ export class SiteInverse {
 
   /** dx/dw at cost w. */
   loadSlope(w: number, x: number): number {
+    if (this.closed) return 1;
     if (w <= this.emptyCost) return this.maxLoadSlope;
     const slope = this.curve.slope(x);
     return slope > 0 ? Math.min(1 / slope, this.maxLoadSlope) : this.maxLoadSlope;

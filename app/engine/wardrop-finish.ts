@@ -46,6 +46,9 @@ export interface FinishOutcome {
 interface SourceTie {
   sites: number[];
   outsideTie: boolean;
+  /** Pairs (and the outside tie) that the Wardrop check found cheaper: first into the spanning forest. */
+  forced: Set<number>;
+  forcedTie: boolean;
   allBalk: boolean;
 }
 
@@ -71,20 +74,21 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
   let iterations = 0;
   let message = "";
   for (let round = 1; round <= maxRounds; round++) {
-    const groups = buildGroups(view, tie, sourceOffset);
+    const groups = buildGroups(view, tie, sourceOffset, w);
     if (groups === null) continue; // inconsistent ties were dropped; rebuild
     let pruned = false;
+    let unbalanced = 0;
     flow.fill(0);
     for (const group of groups) {
       initialiseGroup(view, group, w, theta, eta);
       const solved = solveGroup(view, group, tie, sourceOffset, eta);
       iterations += solved.iterations;
+      // A group that cannot balance has the wrong sources (e.g. more fixed demand than the
+      // sites can take): vanishing shares are dropped now; otherwise the check below, run on
+      // the group's last iterate, offers its sources their cheaper options.
       if (!solved.ok) {
         if (pruneVanishing(view, group, tie, eta)) pruned = true;
-        else {
-          message = `a group of ${group.sites.length} sites did not balance`;
-          return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message };
-        }
+        else unbalanced++;
       }
     }
     if (pruned) continue;
@@ -134,7 +138,9 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
         if (cheapest < (outsideSpread[i] === 0 ? o : high) - tolerance) {
           t.allBalk = false;
           t.sites = [cheapestSite];
+          t.forced.add(cheapestSite);
           t.outsideTie = outsideSpread[i] === 0 && Number.isFinite(o);
+          t.forcedTie = t.outsideTie;
           changed = true;
         }
         continue;
@@ -142,13 +148,17 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
       const used = siteCost[t.sites[0]] + pairCost[row + t.sites[0]];
       if (cheapest < used - tolerance) {
         for (let j = 0; j < m; j++) {
-          if (siteCost[j] + pairCost[row + j] < used - tolerance && !t.sites.includes(j)) t.sites.push(j);
+          if (siteCost[j] + pairCost[row + j] < used - tolerance && !t.sites.includes(j)) {
+            t.sites.push(j);
+            t.forced.add(j);
+          }
         }
         t.sites.sort((a, b) => a - b);
         changed = true;
       }
       if (Number.isFinite(o) && outsideSpread[i] === 0 && !t.outsideTie && used > o + tolerance) {
         t.outsideTie = true;
+        t.forcedTie = true;
         changed = true;
       }
       if (Number.isFinite(o) && outsideSpread[i] > 0 && used > high + tolerance) {
@@ -156,7 +166,11 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
         changed = true;
       }
     }
-    if (!changed) return { ok: true, flow, balked, siteCost, load, rounds: round, iterations, message: "" };
+    if (!changed) {
+      if (unbalanced === 0) return { ok: true, flow, balked, siteCost, load, rounds: round, iterations, message: "" };
+      message = `${unbalanced} group(s) of sites could not balance their inflow`;
+      return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message };
+    }
     message = "the tied structure kept changing";
   }
   return { ok: false, flow, balked, siteCost, load, rounds: maxRounds, iterations, message: message || "too many rounds" };
@@ -183,67 +197,99 @@ function initialStructure(view: CostView, w: Float64Array, theta: number): Sourc
         else if (cheapest >= o - width) outsideTie = true;
       } else if (cheapest > reservationRange(o, outsideSpread[i]).high + width) allBalk = true;
     }
-    ties.push({ sites: allBalk ? [] : sites, outsideTie, allBalk });
+    ties.push({ sites: allBalk ? [] : sites, outsideTie, allBalk, forced: new Set(), forcedTie: false });
   }
   return ties;
 }
 
 /**
- * Connected groups of sites with their offsets δ (BFS over the bipartite graph of sites and the
- * sources that use them). Drops ties that contradict the spanning tree and returns null when it
- * did, so the caller rebuilds from the corrected structure.
+ * Connected groups of sites with their offsets δ. The spanning forest is built greedily from the
+ * most clearly tied pairs (Kruskal 1956, on the pairs' cost excess in the logit solution; pairs
+ * the check has just found cheaper come first), over sources, sites and one "ground" node for
+ * sharp outside options. A pair that closes a cycle must agree with the forest's offsets (an
+ * exact tie, kept for the maximum-entropy split) or is dropped. Returns null when something was
+ * dropped, so the caller rebuilds.
  */
-function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Array): Group[] | null {
+function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Array, w: Float64Array): Group[] | null {
   const { n, m, pairCost, outsideCost } = view;
-  const sourcesOfSite: number[][] = Array.from({ length: m }, () => []);
-  for (let i = 0; i < n; i++) for (const j of tie[i].sites) sourcesOfSite[j].push(i);
-  const siteDelta = new Float64Array(m);
-  const siteSeen = new Uint8Array(m);
-  const sourceSeen = new Uint8Array(n);
+  // Nodes: sources 0..n−1, sites n..n+m−1, ground n+m.
+  const ground = n + m;
+  const parent = Int32Array.from({ length: n + m + 1 }, (_, k) => k);
+  const find = (k: number): number => {
+    while (parent[k] !== k) {
+      parent[k] = parent[parent[k]];
+      k = parent[k];
+    }
+    return k;
+  };
+  interface Edge { source: number; site: number; key: number }
+  const edges: Edge[] = [];
+  for (let i = 0; i < n; i++) {
+    const t = tie[i];
+    if (t.sites.length === 0) continue;
+    let cheapest = Infinity;
+    for (const j of t.sites) cheapest = Math.min(cheapest, w[j] + pairCost[i * m + j]);
+    for (const j of t.sites) edges.push({ source: i, site: j, key: t.forced.has(j) ? -1 : w[j] + pairCost[i * m + j] - cheapest });
+    if (t.outsideTie) edges.push({ source: i, site: -1, key: t.forcedTie ? -1 : Math.abs(cheapest - outsideCost[i]) });
+  }
+  edges.sort((a, b) => a.key - b.key);
+  const treeNeighbours: number[][] = Array.from({ length: n + m + 1 }, () => []);
+  const closing: Edge[] = [];
+  for (const edge of edges) {
+    const a = edge.source;
+    const b = edge.site < 0 ? ground : n + edge.site;
+    const ra = find(a);
+    const rb = find(b);
+    if (ra === rb) closing.push(edge);
+    else {
+      parent[ra] = rb;
+      treeNeighbours[a].push(b);
+      treeNeighbours[b].push(a);
+    }
+  }
+  // Potentials along the forest: absolute from the ground (u_i = o_i), relative from a root site.
+  const potential = new Float64Array(n + m + 1);
+  const seen = new Uint8Array(n + m + 1);
   const groups: Group[] = [];
-  let dropped = false;
-  for (let root = 0; root < m; root++) {
-    if (siteSeen[root] || sourcesOfSite[root].length === 0) continue;
-    const sites: number[] = [root];
-    const sources: number[] = [];
-    siteSeen[root] = 1;
-    siteDelta[root] = 0;
-    let grounded = false;
-    let level = 0;
-    for (let head = 0; head < sites.length; head++) {
-      const j = sites[head];
-      for (const i of sourcesOfSite[j]) {
-        if (sourceSeen[i]) continue;
-        sourceSeen[i] = 1;
-        sources.push(i);
-        const offset = siteDelta[j] + pairCost[i * m + j];
-        sourceOffset[i] = offset;
-        const t = tie[i];
-        for (const k of [...t.sites]) {
-          if (k === j) continue;
-          const implied = offset - pairCost[i * m + k];
-          if (!siteSeen[k]) {
-            siteSeen[k] = 1;
-            siteDelta[k] = implied;
-            sites.push(k);
-          } else if (Math.abs(siteDelta[k] - implied) > 1e-10 * (1 + Math.abs(offset))) {
-            t.sites = t.sites.filter((s) => s !== k);
-            dropped = true;
-          }
-        }
-        if (t.outsideTie) {
-          const required = outsideCost[i] - offset;
-          if (!grounded) {
-            grounded = true;
-            level = required;
-          } else if (Math.abs(required - level) > 1e-10 * (1 + Math.abs(outsideCost[i]))) {
-            t.outsideTie = false;
-            dropped = true;
-          }
-        }
+  // Potentials: absolute (u_i = o_i) in a subtree hanging from the ground, relative to a root site
+  // otherwise. Subtrees joined only through the ground are independent groups (their level is fixed).
+  seen[ground] = 1;
+  const visit = (root: number, grounded: boolean): void => {
+    const order = [root];
+    seen[root] = 1;
+    potential[root] = grounded ? outsideCost[root] : 0;
+    for (let head = 0; head < order.length; head++) {
+      const node = order[head];
+      for (const next of treeNeighbours[node]) {
+        if (seen[next]) continue;
+        seen[next] = 1;
+        if (node < n) potential[next] = potential[node] - pairCost[node * m + (next - n)];
+        else potential[next] = potential[node] + pairCost[next * m + (node - n)];
+        order.push(next);
       }
     }
-    groups.push({ sites, sources, delta: Float64Array.from(sites, (j) => siteDelta[j]), grounded, level });
+    const sites = order.filter((k) => k >= n).map((k) => k - n);
+    const sources = order.filter((k) => k < n);
+    for (const i of sources) sourceOffset[i] = potential[i];
+    if (sites.length > 0) groups.push({ sites, sources, delta: Float64Array.from(sites, (j) => potential[n + j]), grounded, level: 0 });
+  };
+  for (const source of treeNeighbours[ground]) if (!seen[source]) visit(source, true);
+  for (let j = 0; j < m; j++) if (!seen[n + j] && treeNeighbours[n + j].length > 0) visit(n + j, false);
+  // Pairs closing a cycle: keep exact ties, drop the rest.
+  let dropped = false;
+  for (const edge of closing) {
+    const i = edge.source;
+    const t = tie[i];
+    const scale = 1e-10 * (1 + Math.abs(potential[i]));
+    if (edge.site < 0) {
+      if (Math.abs(potential[i] - outsideCost[i]) > scale) {
+        t.outsideTie = false;
+        dropped = true;
+      }
+    } else if (Math.abs(potential[n + edge.site] + pairCost[i * m + edge.site] - potential[i]) > scale) {
+      t.sites = t.sites.filter((j) => j !== edge.site);
+      dropped = true;
+    }
   }
   return dropped ? null : groups;
 }

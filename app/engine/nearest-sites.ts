@@ -1,0 +1,81 @@
+/**
+ * Pruning of sites that cannot be near a source's cheapest option.
+ *
+ * For each source we keep its K cheapest-to-reach sites (by travel cost plus toll) and the
+ * K-th cost, `bound`. A site outside the list costs at least (lowest site cost anywhere) + bound,
+ * so when that exceeds the source's cheapest listed option by more than the width that matters
+ * (the logit cutoff), no other site can be cheapest or carry a share — and the solver looks at
+ * K sites instead of m. Otherwise it scans the full row (exact either way).
+ *
+ * Lists are cached per pair-cost array, so the rules solved on one line share them.
+ */
+const cache = new WeakMap<Float64Array, NearestSites>();
+
+export interface NearestSites {
+  /** Sites per source (n·K), the K lowest pair costs, unordered. */
+  sites: Int32Array;
+  count: Int32Array;
+  /** Largest pair cost in each source's list; Infinity when the list holds every allowed site. */
+  bound: Float64Array;
+  perSource: number;
+}
+
+export const NEAREST_LIST_SIZE = 48;
+
+export function nearestSites(pairCost: Float64Array, n: number, m: number): NearestSites {
+  const cached = cache.get(pairCost);
+  if (cached) return cached;
+  const perSource = Math.min(m, NEAREST_LIST_SIZE);
+  const sites = new Int32Array(n * perSource);
+  const count = new Int32Array(n);
+  const bound = new Float64Array(n);
+  const scratch = new Float64Array(m);
+  for (let i = 0; i < n; i++) {
+    const row = i * m;
+    let allowed = 0;
+    for (let j = 0; j < m; j++) if (pairCost[row + j] < Infinity) scratch[allowed++] = pairCost[row + j];
+    const base = i * perSource;
+    if (allowed <= perSource) {
+      let k = 0;
+      for (let j = 0; j < m; j++) if (pairCost[row + j] < Infinity) sites[base + k++] = j;
+      count[i] = k;
+      bound[i] = Infinity;
+      continue;
+    }
+    const threshold = kthSmallest(scratch, allowed, perSource - 1);
+    let k = 0;
+    for (let j = 0; j < m && k < perSource; j++) if (pairCost[row + j] < threshold) sites[base + k++] = j;
+    for (let j = 0; j < m && k < perSource; j++) if (pairCost[row + j] === threshold) sites[base + k++] = j;
+    count[i] = k;
+    bound[i] = threshold;
+  }
+  const result = { sites, count, bound, perSource };
+  cache.set(pairCost, result);
+  return result;
+}
+
+/** Hoare's selection (quickselect) on values[0..length): the k-th smallest (0-based). Reorders values. */
+function kthSmallest(values: Float64Array, length: number, k: number): number {
+  let lo = 0;
+  let hi = length - 1;
+  while (lo < hi) {
+    const pivot = values[(lo + hi) >>> 1];
+    let a = lo;
+    let b = hi;
+    while (a <= b) {
+      while (values[a] < pivot) a++;
+      while (values[b] > pivot) b--;
+      if (a <= b) {
+        const t = values[a];
+        values[a] = values[b];
+        values[b] = t;
+        a++;
+        b--;
+      }
+    }
+    if (k <= b) hi = b;
+    else if (k >= a) lo = a;
+    else return values[k];
+  }
+  return values[k];
+}
