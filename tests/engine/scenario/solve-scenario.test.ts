@@ -131,6 +131,65 @@ describe("priorities", () => {
   });
 });
 
+describe("pathways through the exchange format", () => {
+  // Jackson (1957) Operations Research 5(4); Jackson (1963) Management Science 10(1) [mem];
+  // values [derived] in CHECKS.md: external arrivals 4 at the first stage, routing
+  // R = [[0,.5,.2],[.4,0,.3],[.1,0,0]], stations (c, μ) = (4, 2), (3, 3), (2, 1.5) →
+  // λ = (800/153, 400/153, 280/153), ΣL = 6.133786. Our site wait is the total queue wait per
+  // patient, (ΣL − Σ λ_s/μ_s)/4 = (6.133786 − 720/153)/4 = 0.3569765 (Little's law); the six
+  // published digits of ΣL allow 2e-7 absolute.
+  const json = {
+    schema: "equilibra/scenario@1",
+    serviceLines: [{ id: "ortho" }],
+    sources: [{ id: "ZZP001", lat: 55, lon: 3, demand: { ortho: 4 } }],
+    providers: [
+      {
+        id: "ZZS1",
+        lat: 55,
+        lon: 3.1,
+        lines: {
+          ortho: {
+            stages: [
+              { id: "clinic", teams: 4, ratePerTeam: 2 },
+              { id: "scan", teams: 3, ratePerTeam: 3 },
+              { id: "theatre", teams: 2, ratePerTeam: 1.5 },
+            ],
+            routing: [
+              [0, 0.5, 0.2],
+              [0.4, 0, 0.3],
+              [0.1, 0, 0],
+            ],
+            entry: "clinic",
+          },
+        },
+      },
+    ],
+  };
+
+  it("gives the site the Jackson network's total queue wait", () => {
+    const choice = solve(json).lines.ortho.rules.choice!;
+    expect(choice.providers[0].routineInflow).toBeCloseTo(4, 9);
+    expect(Math.abs(choice.providers[0].routineWaitWeeks! - (6.133786 - 720 / 153) / 4)).toBeLessThan(2e-7);
+    // The busiest stage is the clinic: 800/153 per week on 4 × 2 (scan 0.29, theatre 0.61).
+    expect(choice.providers[0].utilisation).toBeCloseTo(800 / 153 / 8, 12);
+  });
+
+  it("treats a one-stage pathway exactly as the plain site", () => {
+    const plain = {
+      ...json,
+      sources: [{ id: "ZZP001", lat: 55, lon: 3, demand: { ortho: 5 }, outsideCost: 4, outsideSpread: 0.5 }],
+      providers: [{ id: "ZZS1", lat: 55, lon: 3.1, lines: { ortho: { teams: 3, ratePerTeam: 2 } } }],
+    };
+    const staged = { ...plain, providers: [{ ...plain.providers[0], lines: { ortho: { stages: [{ id: "only", teams: 3, ratePerTeam: 2 }] } } }] };
+    const a = solve(plain).lines.ortho.rules;
+    const b = solve(staged).lines.ortho.rules;
+    for (const rule of ["choice", "optimum"] as const) {
+      expect(b[rule]!.totalCost).toBeCloseTo(a[rule]!.totalCost!, 10);
+      expect(b[rule]!.providers[0].routineWaitWeeks).toBeCloseTo(a[rule]!.providers[0].routineWaitWeeks!, 10);
+    }
+  });
+});
+
 describe("periods (SIPP)", () => {
   it("a single period with factors 1 equals the stationary solve", () => {
     const json = { ...fixture("two-practices-two-sites.json"), periods: [{ id: "year", weeks: 52 }] };
