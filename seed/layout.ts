@@ -1,9 +1,13 @@
 /**
  * The invented demo region "Caldervey", drawn on a local km grid (see geometry.ts for where the
- * grid sits on open sea). Every name here is made up; each was checked not to be a real UK town.
+ * grid sits on open sea). Every name here is made up; each was searched for in public text and
+ * code, where none turned up as a real place (a few appear in games and fiction).
  * Structure and figures follow DEMO.md: ~480,000 people, six towns plus villages, 40 practices,
- * seven provider sites. Generators turn this into the committed files the app loads
- * (region.geojson, demo-scenario.json); nothing here is read at run time.
+ * seven provider sites. With 40 practices for 480,000 people lists average 12,000; the village
+ * practices (58,000 people, five practices) therefore serve ~11,600 each, each covering its own
+ * village and the hamlets around it, rather than DEMO.md's 4–7k rural lists.
+ * Generators turn this into the committed files the app loads (region.geojson,
+ * demo-scenario.json); nothing here is read at run time.
  */
 import type { Km } from "./geometry";
 
