@@ -1,5 +1,6 @@
-/** Builds `LineProblem`s for solver tests from plain arrays. */
+/** Builds `LineProblem`s for solver tests from plain arrays, with the engine's M/M/c site model. */
 import type { LineProblem, SiteWaitModel } from "../../../../app/engine/problem";
+import { createSiteWaitModel } from "../../../../app/engine/site-wait";
 
 export interface ProblemSpec {
   demand: number[];
@@ -8,6 +9,11 @@ export interface ProblemSpec {
   sites: SiteWaitModel[];
   outsideCost?: number | number[];
   outsideSpread?: number | number[];
+}
+
+/** An M/M/c site: `teams` servers at `rate` patients per team per week. */
+export function mmc(teams: number, rate: number): SiteWaitModel {
+  return createSiteWaitModel({ teams, ratePerTeam: rate, serviceCv: 1 });
 }
 
 export function lineProblem(spec: ProblemSpec): LineProblem {
@@ -33,4 +39,23 @@ export function lineProblem(spec: ProblemSpec): LineProblem {
     minWeekly: new Float64Array(m).fill(NaN),
     maxWeekly: new Float64Array(m).fill(NaN),
   };
+}
+
+/** Seeded uniform generator (mulberry32) so property tests see the same instances every run. */
+export function seeded(seed: number): () => number {
+  let state = seed >>> 0;
+  return () => {
+    state = (state + 0x6d2b79f5) >>> 0;
+    let t = state;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+/** Inflow per site of an allocation. */
+export function loadsOf(problem: LineProblem, flow: Float64Array): number[] {
+  const loads = new Array<number>(problem.m).fill(0);
+  for (let i = 0; i < problem.n; i++) for (let j = 0; j < problem.m; j++) loads[j] += flow[i * problem.m + j];
+  return loads;
 }
