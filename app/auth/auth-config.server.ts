@@ -27,7 +27,7 @@ export interface AuthConfig {
     oauthBaseUrl: string | undefined;
     /** Where `/user` lives. */
     apiUrl: string;
-    /** True when GITHUB_CLIENT_ID is unset and the local fake identity provider stands in for GitHub. */
+    /** True when the local fake identity provider stands in for GitHub (no client id, or a loopback address). */
     usesLocalFake: boolean;
   };
   /** smtp://… or smtps://…; when unset, mail goes to the database outbox shown on /dev/mailbox. */
@@ -35,12 +35,21 @@ export interface AuthConfig {
   mailFrom: string;
 }
 
+/** An identity provider on this machine can only be the local fake: GitHub is never on loopback. */
+function isLoopback(url: string): boolean {
+  const host = new URL(url).hostname;
+  return host === "localhost" || host === "[::1]" || host === "::1" || host.startsWith("127.");
+}
+
 export function getAuthConfig(): AuthConfig {
   const settings = config();
-  const usesLocalFake = settings.GITHUB_CLIENT_ID === undefined;
+  const clientIdGiven = settings.GITHUB_CLIENT_ID !== undefined;
   // Without a client id the only provider is the local fake, whose address the start script passes in.
   // Falling back to github.com there would send people to GitHub with a client id it does not know.
-  const fakeAddressGiven = Boolean(process.env.GITHUB_OAUTH_BASE_URL?.trim());
+  const addressGiven = Boolean(process.env.GITHUB_OAUTH_BASE_URL?.trim());
+  const oauthBaseUrl = !clientIdGiven && !addressGiven ? undefined : settings.GITHUB_OAUTH_BASE_URL;
+  // The start script passes the fake's own client id and secret, so a loopback address is what tells.
+  const usesLocalFake = !clientIdGiven || (oauthBaseUrl !== undefined && isLoopback(oauthBaseUrl));
   return {
     appUrl: new URL(settings.appUrl),
     secureCookies: settings.secureCookies,
@@ -48,8 +57,8 @@ export function getAuthConfig(): AuthConfig {
     sessionSecret: settings.SESSION_SECRET,
     github: {
       clientId: settings.GITHUB_CLIENT_ID ?? LOCAL_FAKE_CLIENT_ID,
-      clientSecret: settings.GITHUB_CLIENT_SECRET ?? (usesLocalFake ? LOCAL_FAKE_CLIENT_SECRET : ""),
-      oauthBaseUrl: usesLocalFake && !fakeAddressGiven ? undefined : settings.GITHUB_OAUTH_BASE_URL,
+      clientSecret: settings.GITHUB_CLIENT_SECRET ?? (clientIdGiven ? "" : LOCAL_FAKE_CLIENT_SECRET),
+      oauthBaseUrl,
       apiUrl: settings.GITHUB_API_URL,
       usesLocalFake,
     },

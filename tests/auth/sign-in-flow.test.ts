@@ -65,6 +65,15 @@ describe("signing in through the fake identity provider", () => {
     expect(welcome.data).toMatchObject({ name: planner.name, organisations: [], invitations: [] });
   });
 
+  it("recognises the local provider by its loopback address when the start script passes its client id", async () => {
+    environment.set({ GITHUB_CLIENT_ID: "equilibra-local", GITHUB_CLIENT_SECRET: "equilibra-local-secret" });
+    try {
+      expect((await new AppClient(TEST_APP_URL).get("/sign-in")).data).toMatchObject({ provider: "local", available: true });
+    } finally {
+      environment.set({ GITHUB_CLIENT_ID: undefined, GITHUB_CLIENT_SECRET: undefined });
+    }
+  });
+
   it("signs in a new person typed on the provider's page, and the same person again as the same user", async () => {
     const login = `newcomer${process.pid}`;
     const ids: number[] = [];
