@@ -181,6 +181,17 @@ export function hasLiveSubscription(row: SubscriptionRow | undefined): boolean {
   return Boolean(row?.stripeSubscriptionId && row.status && LIVE_STATUSES.has(row.status));
 }
 
+async function customerExists(stripe: Stripe, customerId: string): Promise<boolean> {
+  return viaStripe("read the customer", async () => {
+    try {
+      return !(await stripe.customers.retrieve(customerId)).deleted;
+    } catch (error) {
+      if (error instanceof Stripe.errors.StripeInvalidRequestError && error.statusCode === 404) return false;
+      throw error;
+    }
+  });
+}
+
 /**
  * Creates a Checkout session for a paid plan and returns its URL. The organisation is linked to
  * a Stripe customer first (a customer alone is not a subscription); the subscription itself only
@@ -201,11 +212,16 @@ export async function startCheckout(input: {
   const stripe = stripeClient();
   const priceId = await priceIdFor(planKey);
   let customerId = row?.stripeCustomerId;
+  if (customerId && !(await customerExists(stripe, customerId))) {
+    // Stripe no longer knows the customer we kept (e.g. the app moved from the local fake to real
+    // Stripe): start afresh rather than fail every checkout.
+    customerId = undefined;
+  }
   if (!customerId) {
     const customer = await viaStripe("register the organisation as a customer", () =>
       stripe.customers.create(
         { name: organisation.name, email: input.email ?? undefined, metadata: { organisationId: String(organisation.id), slug: organisation.slug } },
-        { idempotencyKey: `equilibra-customer-${organisation.id}` },
+        { idempotencyKey: `equilibra-customer-${organisation.id}-${row?.stripeCustomerId ?? "first"}` },
       ),
     );
     customerId = customer.id;

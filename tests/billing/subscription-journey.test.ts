@@ -8,6 +8,7 @@ import { eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { memberships, scenarios, stripeEvents, subscriptions } from "../../app/db/schema";
 import { checkWithinPlan, getPlanStanding, requireWithinPlan } from "../../app/models/plan-limits.server";
+import { linkCustomer } from "../../app/models/subscriptions.server";
 import { upsertUserFromProfile } from "../../app/models/users.server";
 import { action as billingAction, loader as billingLoader } from "../../app/routes/o.$org.billing";
 import { loader as cancelLoader } from "../../app/routes/o.$org.billing.cancel";
@@ -253,6 +254,16 @@ describe("faults and refusals", () => {
     } finally {
       configureBilling({ apiBase: fake.url });
     }
+  });
+
+  it("registers a fresh customer when Stripe no longer knows the one on record", async () => {
+    const { organisation, cookie } = await createAdministrator("Moved Commissioning");
+    await linkCustomer(organisation.id, "cus_from_another_stripe");
+    const paymentPage = await startCheckout(organisation.slug, cookie, "locality");
+    expect((await pay(paymentPage, "4242 4242 4242 4242")).status).toBe(303);
+    const row = await subscriptionRow(organisation.id);
+    expect(row.stripeCustomerId).not.toBe("cus_from_another_stripe");
+    expect(row.status).toBe("active");
   });
 
   it("shows billing to administrators only", async () => {
