@@ -32,7 +32,9 @@ const textField = z.custom<string>((value) => typeof value === "string", { error
 const positive = (unit: string) => numberField(`a number > 0 (${unit})`, (v) => v > 0);
 const latitude = numberField("a latitude in degrees between -90 and 90", (v) => v >= -90 && v <= 90);
 const longitude = numberField("a longitude in degrees between -180 and 180", (v) => v >= -180 && v <= 180);
-const teamsField = numberField("a whole number of teams ≥ 1", (v) => Number.isInteger(v) && v >= 1);
+/** The Erlang recursion costs O(teams) per evaluation: the cap keeps an absurd file from stalling a solve. */
+export const MAX_TEAMS = 10_000;
+const teamsField = numberField(`a whole number of teams from 1 to ${MAX_TEAMS}`, (v) => Number.isInteger(v) && v >= 1 && v <= MAX_TEAMS);
 const rateField = positive("patients per team per week");
 const serviceCvField = numberField("a coefficient of variation ≥ 0 (1 = exponential service times)", (v) => v >= 0);
 const demandValue = numberField("a number ≥ 0 (referrals/week)", (v) => v >= 0);
@@ -357,7 +359,7 @@ function checkSiteLine(siteLine: ScenarioSiteLine, path: PathKey[], add: (path: 
 
   const stages = siteLine.stages;
   if (!stages) {
-    if (siteLine.teams === undefined) add([...path, "teams"], "is required (a whole number of teams ≥ 1) unless stages are given");
+    if (siteLine.teams === undefined) add([...path, "teams"], `is required (a whole number of teams from 1 to ${MAX_TEAMS}) unless stages are given`);
     if (siteLine.ratePerTeam === undefined) add([...path, "ratePerTeam"], "is required (a number > 0, patients per team per week) unless stages are given");
     if (siteLine.routing !== undefined) add([...path, "routing"], "is given without stages");
     if (siteLine.entry !== undefined) add([...path, "entry"], "is given without stages");

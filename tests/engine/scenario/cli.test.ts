@@ -51,7 +51,7 @@ describe("the solve command line", () => {
     expect(stderr).toBe(
       `Invalid scenario in "${fixtures}/invalid-fields.json" (2 issues):\n` +
         "  sources[0].demand.ortho: must be a number ≥ 0 (referrals/week); got -3\n" +
-        "  providers[0].lines.ortho.teams: must be a whole number of teams ≥ 1; got 2.5\n",
+        "  providers[0].lines.ortho.teams: must be a whole number of teams from 1 to 10000; got 2.5\n",
     );
   });
 

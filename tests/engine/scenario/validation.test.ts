@@ -79,11 +79,12 @@ const cases: [string, (s: Json) => void, { path: string; message: string }[]][] 
   ["NaN demand", (s) => (s.sources[0].demand.ortho = Number.NaN), [{ path: "sources[0].demand.ortho", message: "must be a number ≥ 0 (referrals/week); got NaN" }]],
   ["non-numeric demand", (s) => (s.sources[1].demand.ortho = "4,2"), [{ path: "sources[1].demand.ortho", message: 'must be a number ≥ 0 (referrals/week); got "4,2"' }]],
   ["demand not a map", (s) => (s.sources[0].demand = 3), [{ path: "sources[0].demand", message: "must be an object mapping service-line ids to referrals/week; got 3" }]],
-  ["zero teams", (s) => (s.providers[0].lines.ortho.teams = 0), [{ path: "providers[0].lines.ortho.teams", message: "must be a whole number of teams ≥ 1; got 0" }]],
-  ["fractional teams", (s) => (s.providers[1].lines.ortho.teams = 2.5), [{ path: "providers[1].lines.ortho.teams", message: "must be a whole number of teams ≥ 1; got 2.5" }]],
+  ["zero teams", (s) => (s.providers[0].lines.ortho.teams = 0), [{ path: "providers[0].lines.ortho.teams", message: "must be a whole number of teams from 1 to 10000; got 0" }]],
+  ["fractional teams", (s) => (s.providers[1].lines.ortho.teams = 2.5), [{ path: "providers[1].lines.ortho.teams", message: "must be a whole number of teams from 1 to 10000; got 2.5" }]],
+  ["too many teams", (s) => (s.providers[0].lines.ortho.teams = 20000), [{ path: "providers[0].lines.ortho.teams", message: "must be a whole number of teams from 1 to 10000; got 20000" }]],
   ["zero rate", (s) => (s.providers[0].lines.derm.ratePerTeam = 0), [{ path: "providers[0].lines.derm.ratePerTeam", message: "must be a number > 0 (patients per team per week); got 0" }]],
   ["negative rate", (s) => (s.providers[0].lines.ortho.ratePerTeam = -1), [{ path: "providers[0].lines.ortho.ratePerTeam", message: "must be a number > 0 (patients per team per week); got -1" }]],
-  ["missing teams", (s) => delete s.providers[0].lines.ortho.teams, [{ path: "providers[0].lines.ortho.teams", message: "is required (a whole number of teams ≥ 1) unless stages are given; got nothing (the field is missing)" }]],
+  ["missing teams", (s) => delete s.providers[0].lines.ortho.teams, [{ path: "providers[0].lines.ortho.teams", message: "is required (a whole number of teams from 1 to 10000) unless stages are given; got nothing (the field is missing)" }]],
   ["negative serviceCv", (s) => (s.providers[0].lines.ortho.serviceCv = -0.5), [{ path: "providers[0].lines.ortho.serviceCv", message: "must be a coefficient of variation ≥ 0 (1 = exponential service times); got -0.5" }]],
   [
     "a line with demand that no site offers",
@@ -183,7 +184,7 @@ const cases: [string, (s: Json) => void, { path: string; message: string }[]][] 
   [
     "fractional stage teams",
     (s) => (s.providers[0].lines.ortho = { ...pathway(), stages: pathway().stages.map((stage, k) => (k === 1 ? { ...stage, teams: 0.5 } : stage)) }),
-    [{ path: "providers[0].lines.ortho.stages[1].teams", message: "must be a whole number of teams ≥ 1; got 0.5" }],
+    [{ path: "providers[0].lines.ortho.stages[1].teams", message: "must be a whole number of teams from 1 to 10000; got 0.5" }],
   ],
 ];
 

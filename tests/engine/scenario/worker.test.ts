@@ -25,7 +25,7 @@ describe("handleWorkerRequest", () => {
       message: expect.any(String),
       issues: [
         { path: "sources[0].demand.ortho", message: "must be a number ≥ 0 (referrals/week); got -3" },
-        { path: "providers[0].lines.ortho.teams", message: "must be a whole number of teams ≥ 1; got 2.5" },
+        { path: "providers[0].lines.ortho.teams", message: "must be a whole number of teams from 1 to 10000; got 2.5" },
       ],
     });
   });
