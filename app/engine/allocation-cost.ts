@@ -91,7 +91,9 @@ export function relativeGap(
     }
     excess += routeExcess + balkExcess;
   }
-  return { actual, excess, relativeGap: actual > 0 ? excess / actual : 0 };
+  // An allocation that overloads a site (infinite wait) is infinitely far from equilibrium.
+  const gap = !Number.isFinite(actual) || !Number.isFinite(excess) ? Infinity : actual > 0 ? excess / actual : 0;
+  return { actual, excess, relativeGap: gap };
 }
 
 /**

@@ -138,8 +138,9 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
     iterations += path.iterations;
     budget -= path.iterations;
     const theta = path.theta;
-    const finish = wardropFinish(view, w, theta);
+    const finish = wardropFinish(view, w, theta, Math.max(budget, 1));
     iterations += finish.iterations;
+    budget -= finish.iterations;
     if (finish.ok) {
       const result = finishOutcome(problem, curves, view, finish.flow, finish.balked, settings, iterations, warnings);
       if (result.diagnostics.converged || attempt === 2 || budget <= 0) return annotate(result, ruleName);
@@ -195,7 +196,7 @@ export function logitAllocation(view: CostView, ws: LogitWorkspace): Allocation 
   const balked = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     for (let k = ws.rowStart[i]; k < ws.rowStart[i + 1]; k++) flow[i * m + ws.columns[k]] = ws.served[i] * ws.shares[k];
-    balked[i] = demand[i] > 0 ? demand[i] - ws.served[i] : 0;
+    balked[i] = demand[i] > 0 && Number.isFinite(view.outsideCost[i]) ? Math.max(demand[i] - ws.served[i], 0) : 0;
   }
   return { flow, balked };
 }

@@ -61,7 +61,7 @@ interface Group {
   level: number;
 }
 
-export function wardropFinish(view: CostView, w: Float64Array, theta: number, maxRounds = 40): FinishOutcome {
+export function wardropFinish(view: CostView, w: Float64Array, theta: number, maxIterations = Infinity, maxRounds = 40): FinishOutcome {
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
   const tie: SourceTie[] = initialStructure(view, w, theta);
   const flow = new Float64Array(n * m);
@@ -79,6 +79,9 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
     let pruned = false;
     let unbalanced = 0;
     flow.fill(0);
+    if (iterations >= maxIterations) {
+      return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message: "the iteration budget ran out" };
+    }
     for (const group of groups) {
       initialiseGroup(view, group, w, theta, eta);
       const solved = solveGroup(view, group, tie, sourceOffset, eta);
@@ -469,5 +472,6 @@ function writeSourceFlows(
     flow[i * m + j] = f;
     total += f;
   }
-  balked[i] = Math.max(demand[i] - total, 0);
+  // Without an outside option nobody balks; elsewhere the remainder is the balkers (never negative by rounding).
+  balked[i] = Number.isFinite(view.outsideCost[i]) ? Math.max(demand[i] - total, 0) : 0;
 }
