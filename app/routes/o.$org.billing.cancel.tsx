@@ -12,7 +12,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export default function BillingCancel({ loaderData }: Route.ComponentProps) {
   return (
-    <div className="mx-auto max-w-2xl space-y-4 px-6 py-10">
+    <div className="max-w-2xl space-y-4 py-4">
       <h1 className="text-2xl font-semibold">Checkout cancelled</h1>
       <p role="status">
         No payment was taken. The organisation stays on the <span data-testid="current-plan">{loaderData.planName}</span> plan.

@@ -30,7 +30,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 export default function BillingSuccess({ loaderData }: Route.ComponentProps) {
   const { slug, complete, problem, planName, source } = loaderData;
   return (
-    <div className="mx-auto max-w-2xl space-y-4 px-6 py-10">
+    <div className="max-w-2xl space-y-4 py-4">
       <h1 className="text-2xl font-semibold">{complete ? "Thank you — the subscription is active" : "Checking the payment"}</h1>
       {problem && (
         <p role="alert" className="rounded border border-warn bg-warn-soft p-4">

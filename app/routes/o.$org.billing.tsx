@@ -128,7 +128,7 @@ export default function Billing({ loaderData, actionData }: Route.ComponentProps
   const busy = navigation.state !== "idle";
   const limits = page.plan.limits;
   return (
-    <div className="mx-auto max-w-5xl space-y-8 px-6 py-6">
+    <div className="max-w-5xl space-y-8">
       <h1 className="text-2xl font-semibold">Plan &amp; billing</h1>
 
       {actionData?.error && (
