@@ -1,0 +1,90 @@
+/**
+ * The outlooks a run offers the people around the planner — site inflow (provider managers),
+ * balking and its sensitivity (patient-access officers) — and the capacity advisor (planners),
+ * each computed by the engine from the run's own input snapshot and result, and scoped to what
+ * the viewer may see (`publishing.server.ts`).
+ *
+ * Re-solving work (sensitivity curves, the advisor) takes from a fraction of a second to a few
+ * seconds on a region of the demo's size; runs never change, so results are kept in a small
+ * in-memory cache keyed by the run (or the scenario's last change) and the options.
+ */
+import { adviseCapacity, type CapacityAdvice, type CapacityAdvisorOptions } from "~/engine/capacity-advisor";
+import { balkingOutlook, type BalkingOutlook, type BalkingOutlookOptions } from "~/engine/balking-outlook";
+import { parseScenario, type Scenario } from "~/engine/scenario";
+import { balkingSensitivity, type BalkingSensitivity, type SensitivityOptions } from "~/engine/sensitivity";
+import { siteOutlook, type SiteOutlook, type SiteOutlookOptions } from "~/engine/site-outlook";
+import type { Membership } from "./organisations.server";
+import { canSeeSite, defaultRunId, getVisibleRun, siteScope, type VisibleRunDetail } from "./publishing.server";
+
+export interface OutlookRun {
+  run: VisibleRunDetail;
+  scenario: Scenario;
+  dataDate: string | null;
+}
+
+type Viewer = { organisationId: number; membership: Pick<Membership, "role" | "siteCodes"> };
+
+/**
+ * The run named (or the default one) with its scenario parsed; null when the viewer may not open
+ * it. `periods: false` leaves the period-by-period results (most of a run's size) unread.
+ */
+export async function openOutlookRun(viewer: Viewer, runId: number | null, options: { periods?: boolean } = {}): Promise<OutlookRun | null> {
+  const id = runId ?? (await defaultRunId(viewer));
+  if (id === null) return null;
+  const run = await getVisibleRun(viewer, id, options);
+  if (!run) return null;
+  return { run, scenario: parseScenario(run.input), dataDate: run.input.dataDate ?? null };
+}
+
+/** The sites of the run the viewer may see, in the scenario's order. */
+export function visibleSites(opened: OutlookRun, membership: Pick<Membership, "role" | "siteCodes">) {
+  return opened.scenario.providers
+    .filter((provider) => canSeeSite(membership, provider.id))
+    .map((provider) => ({ id: provider.id, name: provider.name ?? provider.id, sector: provider.sector, lines: Object.keys(provider.lines) }));
+}
+
+/**
+ * The site outlook limited to the viewer's sites (and to `siteId` when given). Null when `siteId`
+ * is outside the viewer's scope or not in the run — the caller answers 404 either way.
+ */
+export function siteOutlookFor(
+  opened: OutlookRun,
+  membership: Pick<Membership, "role" | "siteCodes">,
+  options: Omit<SiteOutlookOptions, "siteIds"> & { siteId?: string },
+): SiteOutlook | null {
+  const { siteId, ...rest } = options;
+  if (siteId !== undefined && (!canSeeSite(membership, siteId) || !opened.scenario.providers.some((provider) => provider.id === siteId))) return null;
+  const scope = siteScope(membership);
+  const siteIds = siteId !== undefined ? [siteId] : (scope ?? undefined);
+  return siteOutlook(opened.scenario, opened.run.result, { ...rest, siteIds });
+}
+
+export function balkingOutlookFor(opened: OutlookRun, options: BalkingOutlookOptions): BalkingOutlook {
+  return balkingOutlook(opened.scenario, opened.run.result, options);
+}
+
+const CACHE_LIMIT = 24;
+const cache = new Map<string, unknown>();
+
+function remembered<T>(key: string, compute: () => T): T {
+  if (cache.has(key)) {
+    const value = cache.get(key) as T;
+    // Re-insert: Map keeps insertion order, so the oldest entry is the least recently used.
+    cache.delete(key);
+    cache.set(key, value);
+    return value;
+  }
+  const value = compute();
+  cache.set(key, value);
+  while (cache.size > CACHE_LIMIT) cache.delete(cache.keys().next().value as string);
+  return value;
+}
+
+export function sensitivityFor(opened: OutlookRun, options: SensitivityOptions): BalkingSensitivity {
+  return remembered(`sensitivity:${opened.run.id}:${JSON.stringify(options)}`, () => balkingSensitivity(opened.scenario, options));
+}
+
+/** The advisor on a scenario document (a scenario as stored now, or a run's snapshot), keyed by `version`. */
+export function capacityAdviceFor(document: unknown, version: string, options: CapacityAdvisorOptions): CapacityAdvice {
+  return remembered(`advice:${version}:${JSON.stringify(options)}`, () => adviseCapacity(parseScenario(document), options));
+}
