@@ -10,7 +10,7 @@
 import { and, desc, eq, sql } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { runs, users } from "~/db/schema";
-import { NoSteadyStateError, ScenarioInputError } from "~/engine/problem";
+import { NoSteadyStateError, ScenarioInputError, type RuleKey } from "~/engine/problem";
 import { parseScenario } from "~/engine/scenario";
 import { solveScenario, type ScenarioResult } from "~/engine/solve-scenario";
 import { recordAudit } from "./audit.server";
@@ -37,8 +37,15 @@ export type SolveOutcome =
   | { ok: true; result: ScenarioResult; durationMs: number }
   | { ok: false; status: 400 | 422; error: string; issues: { path: string; message: string }[] };
 
+export interface SolveChoices {
+  /** Only these rules (default: every rule that applies). */
+  rules?: RuleKey[];
+  /** Solve the scenario's periods too (default true); the stationary problem is always solved. */
+  periods?: boolean;
+}
+
 /** Validates and solves an exchange-format document; never throws for bad input. */
-export function solveDocument(input: unknown): SolveOutcome {
+export function solveDocument(input: unknown, choices: SolveChoices = {}): SolveOutcome {
   let scenario;
   try {
     scenario = parseScenario(input);
@@ -48,7 +55,7 @@ export function solveDocument(input: unknown): SolveOutcome {
   }
   const started = performance.now();
   try {
-    const result = solveScenario(scenario);
+    const result = solveScenario(scenario, { rules: choices.rules, periods: choices.periods });
     return { ok: true, result, durationMs: performance.now() - started };
   } catch (error) {
     if (error instanceof NoSteadyStateError) {
@@ -97,12 +104,12 @@ function allConverged(result: ScenarioResult): boolean {
 export async function createRun(
   organisationId: number,
   scenarioId: number,
-  options: { userId: number | null; label?: string | null },
+  options: { userId: number | null; label?: string | null } & SolveChoices,
 ): Promise<null | { ok: true; run: RunSummary } | Extract<SolveOutcome, { ok: false }>> {
   const db = await getDb();
   const document = await exportScenario(db, organisationId, scenarioId);
   if (!document) return null;
-  const outcome = solveDocument(document);
+  const outcome = solveDocument(document, { rules: options.rules, periods: options.periods });
   if (!outcome.ok) return outcome;
   const [row] = await db
     .insert(runs)
@@ -150,12 +157,28 @@ export interface RunDetail extends RunSummary {
   result: ScenarioResult;
 }
 
-/** One run with its input snapshot and result; null when not in this organisation. */
-export async function getRun(organisationId: number, runId: number): Promise<RunDetail | null> {
+/**
+ * One run with its input snapshot and result; null when not in this organisation. With
+ * `periods: false` the result's period-by-period part (most of its size) is left in the database.
+ */
+export async function getRun(organisationId: number, runId: number, options: { periods?: boolean } = {}): Promise<RunDetail | null> {
   if (!Number.isSafeInteger(runId)) return null;
   const db = await getDb();
   const [found] = await db
-    .select({ run: runs, login: users.login })
+    .select({
+      run: {
+        id: runs.id,
+        scenarioId: runs.scenarioId,
+        label: runs.label,
+        converged: runs.converged,
+        durationMs: runs.durationMs,
+        createdBy: runs.createdBy,
+        createdAt: runs.createdAt,
+        input: runs.input,
+        result: options.periods === false ? sql<Record<string, unknown>>`${runs.result} - 'periods'` : runs.result,
+      },
+      login: users.login,
+    })
     .from(runs)
     .leftJoin(users, eq(users.id, runs.createdBy))
     .where(and(eq(runs.id, runId), eq(runs.organisationId, organisationId)));

@@ -37,10 +37,9 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const [document, runs, region] = await Promise.all([exportScenario(db, organisation.id, id), listRuns(organisation.id, id), getRegionMap(db, organisation.id)]);
   const runParam = new URL(request.url).searchParams.get("run");
   const selectedId = runParam && /^\d+$/.test(runParam) ? Number(runParam) : runs[0]?.id;
-  const run = selectedId ? await getRun(organisation.id, selectedId) : null;
-  if (runParam && (!run || run.scenarioId !== id)) throw notFound("There is no such run of this scenario.");
   // The page compares rules on the stationary result; the period-by-period outlook is another screen.
-  const result = run ? (({ periods: _periods, ...stationary }) => stationary)(run.result) : null;
+  const run = selectedId ? await getRun(organisation.id, selectedId, { periods: false }) : null;
+  if (runParam && (!run || run.scenarioId !== id)) throw notFound("There is no such run of this scenario.");
   return {
     organisation: { slug: organisation.slug, name: organisation.name },
     canEdit: EDITOR_ROLES.includes(membership.role),
@@ -64,7 +63,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
           converged: run.converged,
           durationMs: run.durationMs,
           input: run.input as ScenarioDoc,
-          result: result as unknown as ResultDocument,
+          result: run.result as unknown as ResultDocument,
         }
       : null,
     region: region as FeatureCollection | null,
@@ -93,6 +92,7 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
   const [rule, setRule] = useState("choice");
   const [shading, setShading] = useState<Shading>("balking");
   const [whatIf, setWhatIf] = useState<{ result: ResultDocument; elapsedMs?: number } | null>(null);
+  const [withPeriods, setWithPeriods] = useState(false);
 
   // The stored document wins once the save has come back (or failed).
   useEffect(() => {
@@ -194,11 +194,17 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
           <button
             type="button"
             disabled={runner.state !== "idle" || saver.state !== "idle"}
-            onClick={() => runner.submit({ label: null } as never, { method: "post", action: `${api}/runs`, encType: "application/json" })}
+            onClick={() => runner.submit({ label: null, periods: withPeriods }, { method: "post", action: `${api}/runs`, encType: "application/json" })}
             className="rounded bg-accent px-4 py-1.5 text-sm text-white disabled:opacity-50"
           >
             {runner.state !== "idle" ? "Running…" : "Run all rules"}
           </button>
+        )}
+        {canEdit && doc.periods && doc.periods.length > 0 && (
+          <label className="text-sm">
+            <input type="checkbox" checked={withPeriods} onChange={(event) => setWithPeriods(event.target.checked)} className="mr-1" />
+            also solve the {doc.periods.length} periods of the year (slower)
+          </label>
         )}
         {runs.length > 0 ? (
           <label className="text-sm">

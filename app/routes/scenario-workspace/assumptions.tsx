@@ -72,7 +72,7 @@ export function AssumptionsList({ doc, compact = false }: { doc: AssumptionDoc; 
     }
   }
   return (
-    <dl className={compact ? "space-y-1.5 text-xs" : "grid gap-x-6 gap-y-2 text-sm sm:grid-cols-2"} data-testid="assumptions">
+    <dl className={compact ? "space-y-1.5 text-xs" : "space-y-2 text-sm"} data-testid="assumptions">
       {items.map((item) => (
         <div key={item.name}>
           <dt className="font-semibold">{item.name}</dt>

@@ -6,14 +6,16 @@
  */
 import { useMemo } from "react";
 import { PlanningCautions } from "~/components/planning-cautions";
-import { formatNumber } from "~/components/data-table";
 import { SiteBarChart, RULE_COLOURS, type SiteChartRow } from "~/components/rule-charts";
 import { RULE_LABELS, siteRows, summariseRules, UTILISATION_WARNING, type ResultDocument, type RuleSummary } from "~/models/result-document";
 import type { ScenarioDoc } from "~/models/scenario-document";
 import { AssumptionsList } from "./assumptions";
 
 function fmt(value: number | null | undefined, decimals = 2): string {
-  return value === null || value === undefined || !Number.isFinite(value) ? "–" : formatNumber(value, decimals);
+  // Fixed decimals per measure, so a column of figures lines up.
+  return value === null || value === undefined || !Number.isFinite(value)
+    ? "–"
+    : value.toLocaleString("en-GB", { minimumFractionDigits: decimals, maximumFractionDigits: decimals });
 }
 function pct(value: number | null | undefined): string {
   return value === null || value === undefined || !Number.isFinite(value) ? "–" : `${(value * 100).toFixed(1)}%`;

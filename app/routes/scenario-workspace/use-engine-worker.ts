@@ -6,6 +6,8 @@
 import { useCallback, useEffect, useRef, useState } from "react";
 import type { WorkerRequest, WorkerResponse } from "~/engine/worker";
 
+export const WHAT_IF_RULES: NonNullable<WorkerRequest["rules"]> = ["choice", "choiceLogit", "optimum", "nearest", "capacityShare"];
+
 export type WorkerState =
   | { status: "idle" }
   | { status: "solving" }
@@ -36,8 +38,9 @@ export function useEngineWorker(): { state: WorkerState; solve: (scenario: unkno
     latest.current += 1;
     sentAt.current = performance.now();
     setState({ status: "solving" });
-    // Periods are left out: a what-if compares rules on the stationary problem, and stays fast.
-    const request: WorkerRequest = { id: latest.current, scenario, periods: false };
+    // Periods and the constrained plan (a linear programme, seconds on a region) are left out: a
+    // what-if compares the other rules on the stationary problem, and stays interactive.
+    const request: WorkerRequest = { id: latest.current, scenario, periods: false, rules: WHAT_IF_RULES };
     worker.postMessage(request);
   }, []);
 

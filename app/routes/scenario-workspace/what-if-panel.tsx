@@ -133,7 +133,7 @@ export function WhatIfPanel({
             : state.status === "solving"
               ? "Solving…"
               : state.status === "done" && state.response.ok
-                ? `What-if solved in ${state.elapsedMs.toFixed(0)} ms; the comparison and map below show it.`
+                ? `What-if solved in ${state.elapsedMs.toFixed(0)} ms; the comparison and map below show it (the constrained plan is left out of what-ifs).`
                 : ""}
         </span>
         {failure && (
