@@ -237,3 +237,73 @@ function pathwayTeamsNeeded(siteLine: ScenarioSiteLine, urgent: number, routine:
   }
   return Object.fromEntries(stages.map((stage) => [stage.id, stage.teams]));
 }
+
+export interface SiteLineSummary {
+  siteId: string;
+  siteName: string | null;
+  lineId: string;
+  lineName: string;
+  rule: RuleKey;
+  /** Inflow averaged over the year, each period weighted by its weeks (referrals/week). */
+  meanInflow: number | null;
+  peakInflow: number | null;
+  peakPeriod: string | null;
+  peakUtilisation: number | null;
+  lowestShareWithinStandard: number | null;
+  fewestTeamsAvailable: number;
+  mostTeamsNeeded: number | null;
+  /** Periods in which the teams needed exceed the teams on duty (or that have no steady state). */
+  shortPeriods: string[];
+}
+
+/** One line per site, service line and rule: the year at a glance. */
+export function summariseSiteOutlook(rows: readonly SiteOutlookRow[]): SiteLineSummary[] {
+  const groups = new Map<string, SiteOutlookRow[]>();
+  for (const row of rows) {
+    const key = `${row.siteId}\u0000${row.lineId}\u0000${row.rule}`;
+    const group = groups.get(key);
+    if (group) group.push(row);
+    else groups.set(key, [row]);
+  }
+  return [...groups.values()].map((group) => {
+    const [first] = group;
+    let weighted = 0;
+    let weeks = 0;
+    let peak: SiteOutlookRow | null = null;
+    let peakUtilisation: number | null = null;
+    let lowestShare: number | null = null;
+    let mostNeeded: number | null = null;
+    const shortPeriods: string[] = [];
+    for (const row of group) {
+      if (row.inflow === null) {
+        shortPeriods.push(row.periodId);
+        continue;
+      }
+      const weight = row.weeks ?? 1;
+      weighted += row.inflow * weight;
+      weeks += weight;
+      if (!peak || row.inflow > (peak.inflow as number)) peak = row;
+      if (row.utilisation !== null) peakUtilisation = Math.max(peakUtilisation ?? 0, row.utilisation);
+      if (row.shareWithinStandard !== null) lowestShare = Math.min(lowestShare ?? 1, row.shareWithinStandard);
+      if (row.teamsNeeded !== null) {
+        mostNeeded = Math.max(mostNeeded ?? 0, row.teamsNeeded);
+        if (row.teamsNeeded > row.teamsAvailable + 1e-9) shortPeriods.push(row.periodId);
+      }
+    }
+    return {
+      siteId: first.siteId,
+      siteName: first.siteName,
+      lineId: first.lineId,
+      lineName: first.lineName,
+      rule: first.rule,
+      meanInflow: weeks > 0 ? weighted / weeks : null,
+      peakInflow: peak?.inflow ?? null,
+      peakPeriod: peak?.periodLabel ?? null,
+      peakUtilisation,
+      lowestShareWithinStandard: lowestShare,
+      fewestTeamsAvailable: Math.min(...group.map((row) => row.teamsAvailable)),
+      mostTeamsNeeded: mostNeeded,
+      shortPeriods,
+    };
+  });
+}

@@ -1,6 +1,6 @@
 import { describe, expect, it } from "vitest";
 import { parseScenario } from "../../../app/engine/scenario";
-import { siteOutlook } from "../../../app/engine/site-outlook";
+import { siteOutlook, summariseSiteOutlook } from "../../../app/engine/site-outlook";
 import { solveScenario } from "../../../app/engine/solve-scenario";
 import { erlangCBySum, shareWithinBySum, threeSiteScenario } from "./outlook-support";
 
@@ -139,5 +139,32 @@ describe("site outlook: a pathway site", () => {
     expect(byStage.theatre).toBeGreaterThanOrEqual(4);
     expect(row.teamsNeeded).toBe(byStage.clinic + byStage.theatre);
     expect(row.note).toMatch(/Pathway/);
+  });
+});
+
+describe("site outlook summary: the year at a glance", () => {
+  it("weights each period's inflow by its weeks and flags periods short of teams", () => {
+    const scenario = parseScenario({
+      schema: "equilibra/scenario@1",
+      serviceLines: [{ id: "ortho", standardWeeks: 18 }],
+      sources: [{ id: "S1", lat: 0, lon: 0, demand: { ortho: 9 } }],
+      providers: [{ id: "P1", lat: 0, lon: 0.1, sector: "public", lines: { ortho: { teams: 10, ratePerTeam: 1 } } }],
+      periods: [
+        { id: "summer", weeks: 39, demandFactor: 1 },
+        { id: "winter", weeks: 13, demandFactor: 9.5 / 9 },
+      ],
+    });
+    const outlook = siteOutlook(scenario, solveScenario(scenario, { rules: ["choice"] }), { standardWeeks: 0, targetShareWithin: 0.3 });
+    const [summary] = summariseSiteOutlook(outlook.rows);
+    // (9·39 + 9.5·13)/52 = 9.125 referrals/week.
+    expect(summary.meanInflow).toBeCloseTo(9.125, 9);
+    expect(summary.peakInflow).toBeCloseTo(9.5, 9);
+    expect(summary.peakPeriod).toBe("winter");
+    // 10 teams suffice for λ = 9 (C(10, 9) = 0.6687 ≤ 0.7) but not for λ = 9.5.
+    let needed = 10;
+    while (erlangCBySum(needed, 9.5) > 0.7) needed += 1;
+    expect(needed).toBeGreaterThan(10);
+    expect(summary.mostTeamsNeeded).toBe(needed);
+    expect(summary.shortPeriods).toEqual(["winter"]);
   });
 });
