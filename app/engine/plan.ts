@@ -12,7 +12,8 @@
  *
  * Two methods, one answer:
  *  - "lp": javascript-lp-solver on a piecewise-linear cost with adaptive breakpoints and a
- *    certified gap (`plan-lp.ts`), used while the LP is small (default ≤ 3,000 variables);
+ *    certified gap (`plan-lp.ts`), used while the LP is small (default: an expected ≤ 1,000
+ *    variables, about 15 practices × 5 sites with spread outside options);
  *  - "dual": Lagrangian relaxation of the site volume bounds. Each bound gets a multiplier τ_j
  *    (≥ 0 for a maximum, ≤ 0 for a minimum) charged as a per-referral toll; the relaxed problem is
  *    the unconstrained optimum with tolls (`solveOptimum`, any size). The tolls are updated until
@@ -51,9 +52,13 @@ export interface PlanOptions {
   urgentInflow?: Float64Array;
   /** Capacity per site before urgent work (referrals/week); default capacity + urgentInflow. */
   fullCapacity?: Float64Array;
-  /** "auto" (default): "lp" while the LP has at most `lpVariableLimit` variables, else "dual". */
+  /** "auto" (default): "lp" while the LP is expected to stay within `lpVariableLimit` variables, else "dual". */
   method?: "auto" | "lp" | "dual";
-  /** Default 3,000 (javascript-lp-solver is a dense simplex). */
+  /**
+   * Default 1,000. javascript-lp-solver is a dense simplex: about 0.1 s per solve at 500
+   * variables here, and a certified 1e-7 gap takes ~10 rounds of two solves, so beyond this the
+   * dual method (exact, and faster) is used. The LP itself refines up to 3,000 variables.
+   */
   lpVariableLimit?: number;
   /** Target certified relative gap of the LP method. Default 1e-7. */
   tolerance?: number;
@@ -85,7 +90,7 @@ export interface PlanSolution {
   diagnostics: SolveDiagnostics;
 }
 
-const DEFAULTS = { lpVariableLimit: 3000, tolerance: 1e-7, boundTolerance: 1e-9, maxIterations: 300 };
+const DEFAULTS = { lpVariableLimit: 1000, tolerance: 1e-7, boundTolerance: 1e-9, maxIterations: 300 };
 type PlanSettings = typeof DEFAULTS & PlanOptions;
 
 /** The problem with pairs longer than maxKm disallowed (a copy; the input is not changed). */
@@ -220,7 +225,7 @@ export function solvePlan(problem: LineProblem, options: PlanOptions = {}): Plan
   if (infeasibilities.length > 0) return infeasible(limited, bounds, method, infeasibilities, 0);
 
   if (useLp) {
-    const result = solvePlanLp(limited, bounds, { tolerance: settings.tolerance, variableLimit: Math.max(settings.lpVariableLimit, 1) });
+    const result = solvePlanLp(limited, bounds, { tolerance: settings.tolerance });
     if (!result.feasible) {
       return infeasible(limited, bounds, method, [jointInfeasibility(limited, bounds)], result.rounds);
     }
