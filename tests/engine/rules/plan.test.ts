@@ -280,6 +280,13 @@ describe("plan properties on random instances", () => {
     });
   }
 
+  it("auto uses the LP for a small plan and the dual method for a larger one", () => {
+    expect(solvePlan(randomProblem(21, 4, 2, { spread: true })).method).toBe("lp");
+    const larger = solvePlan(randomProblem(21, 40, 7, { spread: true }), { maxUtilisation: 0.8 });
+    expect(larger.method).toBe("dual");
+    expect(larger.status).toBe("solved");
+  });
+
   it("nearest with one site equals choice (the only public option is the same), spread outside options", () => {
     // With a single site, choice and nearest offer each patient the same two options — the
     // site or the outside option — so the Wardrop equilibrium (Wardrop 1952, from memory) and
