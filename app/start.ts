@@ -97,6 +97,9 @@ async function main() {
       `${config.appUrl}/api/stripe/webhook`,
       "--webhook-secret",
       webhookSecret,
+      // The fake keeps its customers and subscriptions across restarts, as the database does.
+      "--state-file",
+      path.join(dataDir, "fake-stripe.json"),
     ]);
     Object.assign(env, { STRIPE_API_BASE: url, STRIPE_WEBHOOK_SECRET: webhookSecret });
   }
@@ -113,6 +116,11 @@ async function main() {
   }
 
   // The package exports no subpath for its binary; it sits beside the app's other dependencies.
+  // Create the plans' products and prices in whichever Stripe is configured (idempotent by lookup key).
+  Object.assign(process.env, { STRIPE_API_BASE: env.STRIPE_API_BASE, STRIPE_WEBHOOK_SECRET: env.STRIPE_WEBHOOK_SECRET });
+  const { prepareBilling } = await import("./services/billing.server");
+  await prepareBilling();
+
   const serveBin = path.resolve("node_modules/@react-router/serve/bin.js");
   const server = spawn(process.execPath, [serveBin, "build/server/index.js"], { env, stdio: ["ignore", "pipe", "inherit"] });
   children.push(server);

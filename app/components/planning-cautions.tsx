@@ -1,9 +1,6 @@
-/** The cautions every page that shows or exports results carries (see PRODUCT.md, "Cautions to show"). */
-export const PLANNING_CAUTIONS = [
-  "Results are planning estimates for populations from a queueing model, not decisions about individual patients.",
-  "Clinical prioritisation stays with clinicians; local access policy, contracts and patients' legal right to choose prevail.",
-  "Read every figure beside its assumptions and data date, and weigh efficiency together with equity.",
-] as const;
+import { PLANNING_CAUTIONS } from "~/engine/cautions";
+
+export { PLANNING_CAUTIONS };
 
 export function PlanningCautions({ compact = false }: { compact?: boolean }) {
   return (

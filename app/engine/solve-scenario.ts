@@ -13,6 +13,7 @@
  *  - a fixed rule that overloads a site (a captive patient stream it cannot absorb) reports
  *    `converged: false` with its `overloads`; patient choice may be fine on the same line.
  */
+import { PLANNING_CAUTIONS } from "./cautions";
 import { buildLineProblems, type LineBuild, type Shortfall } from "./build-problem";
 import { solveChoice } from "./equilibrium";
 import { solveCapacityShare, solveNearest } from "./fixed-rules";
@@ -26,11 +27,7 @@ import type { Scenario, ScenarioPeriod } from "./scenario";
 export const RESULT_SCHEMA = "equilibra/result@1";
 
 /** The cautions carried by every result (PRODUCT.md, "Cautions to show"). */
-export const RESULT_CAUTIONS = [
-  "Results are planning estimates for populations from a queueing model, not decisions about individual patients.",
-  "Clinical prioritisation stays with clinicians; local access policy, contracts and patients' legal right to choose prevail.",
-  "Read every figure beside its assumptions and data date, and weigh efficiency together with equity.",
-] as const;
+export const RESULT_CAUTIONS = PLANNING_CAUTIONS;
 
 /** The order rules are run and reported in. */
 export const RULE_ORDER: readonly RuleKey[] = ["choice", "choiceLogit", "optimum", "nearest", "capacityShare", "plan"];
