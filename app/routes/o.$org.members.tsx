@@ -8,6 +8,7 @@ import { z } from "zod";
 import { requireRole } from "~/auth/guards.server";
 import { notFound } from "~/auth/http-errors";
 import { ROLES, type Role } from "~/db/schema";
+import { checkWithinPlan } from "~/models/plan-limits.server";
 import { isEmailAMember, listPendingInvitations, revokeInvitation } from "~/models/invitations.server";
 import { changeMemberRole, listMembers, listSiteCodes, removeMember } from "~/models/organisations.server";
 import { ROLE_LABELS } from "~/models/roles";
@@ -112,6 +113,8 @@ export async function action({ request, params }: Route.ActionArgs) {
     case "invite": {
       const sites = checkSiteCodes(input.role, input.siteCodes, await listSiteCodes(organisation.id));
       if ("error" in sites) return reply({ intent: input.intent, fieldErrors: { siteCodes: [sites.error] } }, 400);
+      const seats = await checkWithinPlan(organisation, "seats");
+      if (!seats.ok) return reply({ intent: input.intent, formError: seats.message }, 403);
       if (await isEmailAMember(organisation.id, input.email)) {
         return reply({ intent: input.intent, fieldErrors: { email: [`${input.email} is already a member of ${organisation.name}.`] } }, 409);
       }
