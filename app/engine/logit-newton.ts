@@ -256,8 +256,12 @@ function newtonDirection(view: CostView, theta: number, ws: LogitWorkspace): voi
     rz += r[j] * z[j];
     target += r[j] * r[j];
   }
-  target *= 1e-20;
-  for (let iteration = 0; iteration < 4 * m; iteration++) {
+  // Inexact Newton (Dembo, Eisenstat & Steihaug 1982): a loose direction far from the root, a
+  // tight one near it, where the forcing term shrinks with the residual.
+  const demandScale = Math.max(view.totalDemand, 1e-300);
+  const forcing = Math.min(1e-2, Math.sqrt(Math.sqrt(target) / demandScale));
+  target *= Math.max(forcing * forcing, 1e-24);
+  for (let iteration = 0; iteration < 200; iteration++) {
     multiplyHessian(view, theta, ws, d, hd);
     let curvature = 0;
     for (let j = 0; j < m; j++) curvature += d[j] * hd[j];
@@ -339,6 +343,9 @@ export function logitNewton(
   return { iterations, residual, converged: residual <= tolerance };
 }
 
+const THETA_FACTOR = 10;
+const STAGE_ITERATIONS = 1000;
+
 /**
  * Continuation in θ: solve at `fromTheta`, then at 10× larger θ, …, up to `toTheta`, each stage
  * to a loose tolerance and the last to `finalTolerance` (Σ|R|, referrals/week). Between stages the
@@ -361,10 +368,11 @@ export function logitContinuation(
   let previousTheta = 0;
   for (;;) {
     const last = theta >= toTheta;
-    const outcome = logitNewton(view, theta, w, ws, last ? finalTolerance : 1e-3 * view.totalDemand, Math.max(maxIterations - iterations, 1));
+    const stageCap = last ? maxIterations - iterations : Math.min(STAGE_ITERATIONS, maxIterations - iterations);
+    const outcome = logitNewton(view, theta, w, ws, last ? finalTolerance : 1e-3 * view.totalDemand, Math.max(stageCap, 1));
     iterations += outcome.iterations;
     if (last || iterations >= maxIterations) return { ...outcome, iterations, theta };
-    const nextTheta = Math.min(theta * 10, toTheta);
+    const nextTheta = Math.min(theta * THETA_FACTOR, toTheta);
     if (previousTheta > 0) {
       const current = Float64Array.from(w);
       const currentNorm = evaluateLogit(view, nextTheta, current, ws);

@@ -17,11 +17,21 @@
  */
 import type { LineProblem } from "./problem";
 import { type SolveOptions, type SolveResult, solveWardropOnCurves } from "./equilibrium";
-import { marginalCostCurve } from "./site-cost-curve";
+import { SiteInverse, marginalCostCurve, waitCurve } from "./site-cost-curve";
 
 export function solveOptimum(problem: LineProblem, options: SolveOptions = {}): SolveResult {
   const curves = problem.sites.map(marginalCostCurve);
-  const outcome = solveWardropOnCurves(problem, curves, options, "optimum");
+  // Warm starts arrive as waits; the solver iterates on marginal costs, so translate through the inflow.
+  let warmStartWaits = options.warmStartWaits;
+  if (warmStartWaits) {
+    const waits = warmStartWaits;
+    warmStartWaits = Float64Array.from(problem.sites, (site, j) => {
+      if (!(waits[j] < Infinity) || !(site.capacity > 0)) return waits[j];
+      const x = new SiteInverse(waitCurve(site)).load(waits[j]);
+      return x > 0 ? curves[j].cost(x) : waits[j];
+    });
+  }
+  const outcome = solveWardropOnCurves(problem, curves, { ...options, warmStartWaits }, "optimum");
   const siteWait = Float64Array.from(outcome.load, (x, j) => problem.sites[j].wait(Math.max(x, 0)));
   return { allocation: outcome.allocation, siteWait, diagnostics: outcome.diagnostics };
 }
