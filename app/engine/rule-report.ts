@@ -37,6 +37,12 @@ export interface RuleSolution {
   /** The plan's verdict; "infeasible" comes with `infeasibilities` and no allocation. */
   status?: "solved" | "infeasible" | "notConverged";
   infeasibilities?: string[];
+  /**
+   * The rule's own total cost when it cannot be recomputed from flows and per-source balking alone:
+   * under capacityShare each (practice, site) group balks separately, so the balkers are not simply
+   * a practice's lowest reservation costs.
+   */
+  totalCost?: number;
 }
 
 export interface ProviderReport {
@@ -228,7 +234,7 @@ export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleS
     sourceCosts.push({ cost: sourceCost, demand, decile: source.deprivationDecile ?? null, balked: sourceBalked, wait: sourceWait, km: sourceKm, served: sourceServed });
   }
 
-  const totalCost = allocationTotalCost(problem, allocation, solution.siteWait);
+  const totalCost = solution.totalCost ?? allocationTotalCost(problem, allocation, solution.siteWait);
   if (!solution.diagnostics.converged && !(solution.overloads?.length ?? 0)) {
     warnings.push("The solver did not converge: figures are the last iterate, not an equilibrium or optimum.");
   }

@@ -355,3 +355,17 @@ describe("the result document", () => {
     expect(choice.warnings.length).toBe(flagged.length);
   });
 });
+
+describe("fixed rules' total cost in the result document", () => {
+  it("reports capacityShare's own objective, in which each (practice, site) group balks separately", async () => {
+    const { buildLineProblems } = await import("~/engine/build-problem");
+    const { solveCapacityShare } = await import("~/engine/fixed-rules");
+    const json = fixture("two-practices-two-sites.json");
+    for (const source of json.sources) source.outsideSpread = 0.5;
+    const scenario = parseScenario(json);
+    const direct = solveCapacityShare(buildLineProblems(scenario)[0].problem);
+    const reported = solveScenario(scenario).lines.ortho.rules.capacityShare!.totalCost;
+    // Same model, same solver: only rounding separates them.
+    expectRelative(reported, direct.totalCost, 1e-12);
+  });
+});
