@@ -15,7 +15,9 @@
  *                   list with columns source, site, km
  * - service-lines.csv optional: id, name, standardWeeks; otherwise lines come from the scenario
  *                   being replaced, or from the demand columns and capacity rows (standard 18 weeks).
- * Pathway stages and periods have no CSV form: they travel in the JSON exchange format.
+ * Pathway stages and periods have no CSV form: they travel in the JSON exchange format. Importing
+ * CSV into an existing scenario keeps its periods, and keeps the pathway of every site and line
+ * that the new capacities still list (the stages are not in the file, so nothing replaces them).
  *
  * Line numbers are file lines: the header is line 1, so data row `index` sits on line index + 2.
  */
@@ -55,7 +57,7 @@ export type CsvFiles = Partial<Record<CsvFileKind, string>>;
 
 /** The scenario-wide settings a CSV import keeps from the scenario it replaces (or the defaults). */
 export type CsvImportBase = Partial<
-  Pick<Scenario, "name" | "kmPerWeek" | "circuity" | "choiceModel" | "periods" | "plan" | "serviceLines">
+  Pick<Scenario, "name" | "kmPerWeek" | "circuity" | "choiceModel" | "periods" | "plan" | "serviceLines" | "providers">
 >;
 
 export interface CsvPreview {
@@ -458,6 +460,7 @@ export function importCsvFiles(files: CsvFiles, base: CsvImportBase = {}): CsvPr
   const serviceLines = read.serviceLines ? readServiceLines(read.serviceLines, errors) : inferServiceLines(base, sources, providers);
 
   if (errors.length > 0) return { rowCounts, errors };
+  keepPathways(providers, base.providers ?? []);
 
   const candidate: Record<string, unknown> = {
     schema: SCENARIO_SCHEMA,
@@ -483,6 +486,22 @@ export function importCsvFiles(files: CsvFiles, base: CsvImportBase = {}): CsvPr
       serviceLinesFromFile: Boolean(read.serviceLines),
     };
     return { rowCounts, errors: error.issues.map((issue) => locateIssue(issue, origins)) };
+  }
+}
+
+/** Copies the pathway (stages, routing, entry) of each site line the scenario being replaced had. */
+function keepPathways(providers: Scenario["providers"], previous: Scenario["providers"]): void {
+  const before = new Map(previous.map((provider) => [provider.id, provider]));
+  for (const provider of providers) {
+    const old = before.get(provider.id);
+    if (!old) continue;
+    for (const [lineId, siteLine] of Object.entries(provider.lines)) {
+      const oldLine = old.lines[lineId];
+      if (!oldLine?.stages) continue;
+      siteLine.stages = structuredClone(oldLine.stages);
+      if (oldLine.routing) siteLine.routing = structuredClone(oldLine.routing);
+      if (oldLine.entry) siteLine.entry = oldLine.entry;
+    }
   }
 }
 

@@ -80,6 +80,7 @@ export async function action({ request, params }: Route.ActionArgs) {
         periods: current.periods,
         plan: current.plan,
         serviceLines: current.serviceLines,
+        providers: current.providers,
       });
       rowCounts = result.rowCounts;
       errors.push(...result.errors);

@@ -5,6 +5,7 @@
  * export → re-import reproducing the scenario exactly.
  */
 import { createHash } from "node:crypto";
+import { readFileSync } from "node:fs";
 import { eq } from "drizzle-orm";
 import { beforeAll, describe, expect, it } from "vitest";
 import { apiTokens, scenarios } from "~/db/schema";
@@ -242,6 +243,22 @@ describe("import and export", () => {
     for (const [field, file] of [["practices", "practices.csv"], ["sites", "sites.csv"], ["capacities", "capacities.csv"], ["serviceLines", "service-lines.csv"]] as const) {
       const answer = await call(scenarioExport, `${listPath(alpha)}/${id}/export?format=csv&file=${file}`, params, { userId: alpha.members.reader.user.id });
       expect(answer.status, String(answer.body)).toBe(200);
+      form.append(field, new File([answer.body as string], file, { type: "text/csv" }));
+    }
+    const stored = await call(scenarioImport, `${listPath(alpha)}/${id}/import`, params, { userId: alpha.members.planner.user.id, method: "POST", form });
+    expect(stored.body).toMatchObject({ stored: true, errors: [] });
+    expect(await exportScenario(database.db, alpha.organisation.id, id)).toEqual(before);
+  });
+
+  it("re-imports the demo region's exported CSV files exactly, keeping its periods and pathway stages", async () => {
+    const demo = JSON.parse(readFileSync("seed/demo-scenario.json", "utf8"));
+    const id = await importScenario(database.db, alpha.organisation.id, demo);
+    const before = await exportScenario(database.db, alpha.organisation.id, id);
+    expect(before?.periods?.length).toBeGreaterThan(0);
+    const params = { org: alpha.organisation.slug, id: String(id) };
+    const form = new FormData();
+    for (const [field, file] of [["practices", "practices.csv"], ["sites", "sites.csv"], ["capacities", "capacities.csv"], ["serviceLines", "service-lines.csv"]] as const) {
+      const answer = await call(scenarioExport, `${listPath(alpha)}/${id}/export?format=csv&file=${file}`, params, { userId: alpha.members.reader.user.id });
       form.append(field, new File([answer.body as string], file, { type: "text/csv" }));
     }
     const stored = await call(scenarioImport, `${listPath(alpha)}/${id}/import`, params, { userId: alpha.members.planner.user.id, method: "POST", form });

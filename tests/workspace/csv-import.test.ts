@@ -162,6 +162,26 @@ describe("CSV export and re-import", () => {
     expect(files["sites.csv"]).toContain('ZZS1,"Teaching, North",10.15,-30.2,public');
   });
 
+  it("keeps the pathway stages of the scenario being replaced for site lines the capacities still list", () => {
+    const stages = [
+      { id: "clinic", teams: 3, ratePerTeam: 2.5, serviceCv: 1 },
+      { id: "theatre", teams: 2, ratePerTeam: 3, serviceCv: 1 },
+    ];
+    const staged = parseScenario({
+      ...scenario,
+      providers: scenario.providers.map((provider) =>
+        provider.id === "ZZS1" ? { ...provider, lines: { ...provider.lines, ortho: { teams: 3, ratePerTeam: 2.5, serviceCv: 1, stages, routing: [[0, 0.6], [0, 0]], entry: "clinic" } } } : provider,
+      ),
+    });
+    const files = scenarioToCsvFiles(staged);
+    const preview = importCsvFiles(
+      { practices: files["practices.csv"], sites: files["sites.csv"], capacities: files["capacities.csv"], serviceLines: files["service-lines.csv"], travelKm: files["travel-km.csv"] },
+      { name: staged.name, kmPerWeek: staged.kmPerWeek, circuity: staged.circuity, choiceModel: staged.choiceModel, providers: staged.providers },
+    );
+    expect(preview.errors).toEqual([]);
+    expect(preview.scenario).toEqual(staged);
+  });
+
   it("says what CSV cannot carry", () => {
     expect(csvOmissions(scenario)).toEqual([]);
     const withPeriods = parseScenario({ ...scenario, periods: [{ id: "jan", weeks: 4.3, demandFactor: 1.05 }] });

@@ -51,6 +51,7 @@ async function previewFiles(picked: Picked, doc: ScenarioDoc): Promise<Preview> 
     periods: doc.periods,
     plan: doc.plan,
     serviceLines: doc.serviceLines,
+    providers: doc.providers,
   });
   return { errors: result.errors, rowCounts: result.rowCounts, ready: result.errors.length === 0 && Boolean(result.scenario) };
 }
