@@ -19,6 +19,13 @@ export default [
   route("api/v1/o/:org/scenarios/:id/import", "routes/api.v1.o.$org.scenarios.$id.import.ts"),
   route("api/v1/o/:org/scenarios/:id/runs", "routes/api.v1.o.$org.scenarios.$id.runs.ts"),
   route("api/v1/o/:org/runs/:runId", "routes/api.v1.o.$org.runs.$runId.ts"),
+  // Outlooks, publishing and the capacity advisor (app/models/{publishing,outlooks,run-briefs}.server.ts)
+  route("api/v1/o/:org/runs/:runId/publication", "routes/api.v1.o.$org.runs.$runId.publication.ts"),
+  route("api/v1/o/:org/outlook/sites", "routes/api.v1.o.$org.outlook.sites.ts"),
+  route("api/v1/o/:org/outlook/sites/:siteId", "routes/api.v1.o.$org.outlook.sites.$siteId.ts"),
+  route("api/v1/o/:org/outlook/balking", "routes/api.v1.o.$org.outlook.balking.ts"),
+  route("api/v1/o/:org/outlook/balking/sensitivity", "routes/api.v1.o.$org.outlook.balking.sensitivity.ts"),
+  route("api/v1/o/:org/scenarios/:id/advisor", "routes/api.v1.o.$org.scenarios.$id.advisor.ts"),
   // Pages of one organisation, inside its shell (app/routes/o.$org.tsx checks membership).
   route("o/:org", "routes/o.$org.tsx", [
     index("routes/o.$org._index.tsx"),
@@ -29,6 +36,13 @@ export default [
     route("scenarios", "routes/o.$org.scenarios.tsx"),
     route("scenarios/:id", "routes/o.$org.scenarios.$id.tsx"),
     route("scenarios/:id/settings", "routes/o.$org.scenarios.$id.settings.tsx"),
+    route("scenarios/:id/advisor", "routes/o.$org.scenarios.$id.advisor.tsx"),
+    route("runs", "routes/o.$org.runs.tsx"),
+    route("runs/:runId/brief", "routes/o.$org.runs.$runId.brief.tsx"),
+    route("outlook/sites", "routes/o.$org.outlook.sites.tsx"),
+    route("outlook/sites/:siteId", "routes/o.$org.outlook.sites.$siteId.tsx"),
+    route("outlook/balking", "routes/o.$org.outlook.balking.tsx"),
+    route("audit", "routes/o.$org.audit.tsx"),
     route("api", "routes/o.$org.api.tsx"),
     route("settings/tokens", "routes/o.$org.settings.tokens.tsx"),
   ]),

@@ -10,6 +10,7 @@
  */
 import type { Role } from "~/db/schema";
 import { authenticateApiToken } from "~/models/api-tokens.server";
+import { recordAudit } from "~/models/audit.server";
 import { getMembership, getOrganisationBySlug, ROLE_LABELS, type Membership, type Organisation } from "~/models/organisations.server";
 import type { User } from "~/models/users.server";
 import { getOptionalUser } from "./guards.server";
@@ -64,6 +65,8 @@ export async function requireApiMember(request: Request, slug: string | undefine
     if (token.organisation.slug !== slug) throw apiError(404, API_NOT_FOUND);
     organisation = token.organisation;
     membership = token.membership;
+    // Administrators read token use in the audit log (app/routes/o.$org.audit.tsx).
+    await recordAudit(organisation.id, user.id, "api_token.used", `api_token:${token.tokenId}`, { method: request.method, path: new URL(request.url).pathname });
   } else {
     organisation = slug ? await getOrganisationBySlug(slug) : undefined;
     membership = organisation ? await getMembership(organisation.id, user.id) : undefined;

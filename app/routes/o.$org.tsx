@@ -16,8 +16,10 @@ const NAVIGATION: { path: string; label: string; roles: readonly Role[] | "all" 
   { path: "scenarios", label: "Scenarios", roles: "all" },
   { path: "outlook/sites", label: "Site inflow", roles: ["administrator", "planner", "provider_manager"] },
   { path: "outlook/balking", label: "Balking", roles: ["administrator", "planner", "access_officer"] },
+  { path: "runs", label: "Runs", roles: "all" },
   { path: "members", label: "Members", roles: ["administrator"] },
   { path: "billing", label: "Plan & billing", roles: ["administrator"] },
+  { path: "audit", label: "Audit log", roles: ["administrator"] },
   { path: "api", label: "API", roles: "all" },
 ];
 
