@@ -127,7 +127,7 @@ export function WhatIfPanel({
         </fieldset>
       </div>
       <div className="flex flex-wrap items-center gap-3 text-sm">
-        <span role="status" data-testid="what-if-status">
+        <span role="status" data-testid="what-if-status" data-solved={state.status === "done" ? String(state.response.id) : ""}>
           {!active
             ? "Move a slider to re-solve in your browser."
             : state.status === "solving"
