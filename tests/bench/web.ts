@@ -1,0 +1,281 @@
+/**
+ * `npm run bench:web`: the web targets of the scenario workspace, measured against the production
+ * build started as in the browser tests (`tests/browser/harness.ts`: its own data directory, local
+ * fakes, loopback ports only).
+ *
+ *  (a) the workspace page of the demo scenario, server-rendered for a signed-in planner, without a
+ *      run and with one run shown (target: under 300 ms);
+ *  (b) `POST /api/v1/solve` with the demo scenario (`seed/demo-scenario.json`) from 20 concurrent
+ *      clients for 30 s, authenticated by a personal API token created through the app's own page
+ *      (target: no errors; requests/s and p95 reported);
+ *  (c) a what-if re-solve in the browser's Web Worker: from a slider change to the page showing the
+ *      new result (target: under 100 ms), and the worker's solve alone in Node as a cross-check.
+ *
+ * Baselines measured in the same run on the same server: a static asset and the sign-in page
+ * (latency floor of the HTTP stack and of a small server render), and one solve at a time.
+ *
+ * Every loop is bounded in count and time. Environment: BENCH_WEB_SECONDS (default 30),
+ * BENCH_WEB_CLIENTS (default 20), BENCH_WEB_SAMPLES (default 30), BENCH_WEB_FULL=1 to load-test the
+ * full solve (all periods) as well — at several seconds per solve that phase takes minutes.
+ */
+import { existsSync, readdirSync, readFileSync } from "node:fs";
+import os from "node:os";
+import type { Page } from "playwright-core";
+import { DEMO_PEOPLE } from "../../seed/people";
+import { handleWorkerRequest } from "../../app/engine/worker";
+import { WHAT_IF_RULES } from "../../app/routes/scenario-workspace/use-engine-worker";
+import { launchBrowser, startApp, type RunningApp } from "../browser/harness";
+
+const SECONDS = Number(process.env.BENCH_WEB_SECONDS ?? 30);
+const CLIENTS = Number(process.env.BENCH_WEB_CLIENTS ?? 20);
+const SAMPLES = Number(process.env.BENCH_WEB_SAMPLES ?? 30);
+const FULL = process.env.BENCH_WEB_FULL === "1";
+/** No single request may hang the bench: each is aborted after this long. */
+const REQUEST_TIMEOUT_MS = 120_000;
+
+interface Row {
+  measure: string;
+  n: number;
+  p50: number | null;
+  p95: number | null;
+  extra: string;
+  target: string;
+}
+
+const rows: Row[] = [];
+
+function quantile(sorted: number[], q: number): number | null {
+  if (sorted.length === 0) return null;
+  // Nearest-rank: the smallest value with at least q of the sample at or below it.
+  return sorted[Math.min(sorted.length - 1, Math.max(0, Math.ceil(q * sorted.length) - 1))];
+}
+
+function record(measure: string, samples: number[], extra = "", target = "") {
+  const sorted = [...samples].sort((a, b) => a - b);
+  rows.push({ measure, n: samples.length, p50: quantile(sorted, 0.5), p95: quantile(sorted, 0.95), extra, target });
+}
+
+function verdict(value: number | null, limit: number): string {
+  return value === null ? "no data" : value < limit ? `< ${limit} ms: met` : `< ${limit} ms: NOT met`;
+}
+
+/** Times `count` sequential GETs (after `warmup` untimed ones); every answer must have `status`. */
+async function timeGets(url: string, headers: Record<string, string>, count: number, status = 200, warmup = 3): Promise<number[]> {
+  const times: number[] = [];
+  for (let i = 0; i < warmup + count; i++) {
+    const started = performance.now();
+    const response = await fetch(url, { headers, redirect: "manual", signal: AbortSignal.timeout(REQUEST_TIMEOUT_MS) });
+    await response.arrayBuffer();
+    const elapsed = performance.now() - started;
+    if (response.status !== status) throw new Error(`GET ${url} answered ${response.status}, expected ${status}`);
+    if (i >= warmup) times.push(elapsed);
+  }
+  return times;
+}
+
+async function signIn(page: Page, app: RunningApp): Promise<void> {
+  const person = DEMO_PEOPLE.find((candidate) => candidate.role === "planner" && candidate.organisation === "caldervey");
+  if (!person) throw new Error("No demo planner of caldervey");
+  await page.goto(`${app.url}/sign-in`);
+  await page.getByRole("button", { name: /sign in/i }).first().click();
+  await page.locator("button.person", { hasText: person.name }).click();
+  await page.waitForURL(/\/o\/caldervey\/scenarios$/);
+}
+
+/** A personal API token, created the way a planner does it: on the tokens page. */
+async function createToken(page: Page, app: RunningApp): Promise<string> {
+  await page.goto(`${app.url}/o/caldervey/settings/tokens`);
+  await page.locator('input[name="name"]').fill("web benchmark");
+  await page.getByRole("button", { name: "Create token" }).click();
+  const token = (await page.getByTestId("new-token").textContent({ timeout: 30_000 }))?.trim();
+  if (!token) throw new Error("The tokens page showed no new token");
+  return token;
+}
+
+interface LoadResult {
+  latencies: number[];
+  solveMs: number[];
+  errors: number;
+  errorSamples: string[];
+  elapsedS: number;
+}
+
+/**
+ * `clients` loops each sending one request at a time until `seconds` have passed (no new request
+ * starts after that; those in flight finish or hit the per-request timeout).
+ */
+async function load(url: string, init: () => RequestInit, clients: number, seconds: number): Promise<LoadResult> {
+  const result: LoadResult = { latencies: [], solveMs: [], errors: 0, errorSamples: [], elapsedS: 0 };
+  const started = performance.now();
+  const stopAt = started + seconds * 1000;
+  const maxPerClient = 100_000;
+  const client = async () => {
+    for (let sent = 0; sent < maxPerClient && performance.now() < stopAt; sent++) {
+      const begun = performance.now();
+      try {
+        const response = await fetch(url, { ...init(), signal: AbortSignal.timeout(REQUEST_TIMEOUT_MS) });
+        const body = await response.text();
+        const latency = performance.now() - begun;
+        if (response.status === 200 && body.includes('"schema"')) {
+          result.latencies.push(latency);
+          const solve = Number(response.headers.get("x-solve-milliseconds"));
+          if (Number.isFinite(solve)) result.solveMs.push(solve);
+        } else {
+          result.errors++;
+          if (result.errorSamples.length < 3) result.errorSamples.push(`${response.status}: ${body.slice(0, 200)}`);
+        }
+      } catch (error) {
+        result.errors++;
+        if (result.errorSamples.length < 3) result.errorSamples.push(String(error));
+      }
+    }
+  };
+  await Promise.all(Array.from({ length: clients }, client));
+  result.elapsedS = (performance.now() - started) / 1000;
+  return result;
+}
+
+function recordLoad(label: string, outcome: LoadResult) {
+  const rate = outcome.latencies.length / outcome.elapsedS;
+  record(
+    label,
+    outcome.latencies,
+    `${rate.toFixed(2)} req/s over ${outcome.elapsedS.toFixed(1)} s; ${outcome.errors} errors; solve itself p50 ${quantile([...outcome.solveMs].sort((a, b) => a - b), 0.5)?.toFixed(0) ?? "–"} ms`,
+    outcome.errors === 0 ? "no errors: met" : "no errors: NOT met",
+  );
+  for (const sample of outcome.errorSamples) console.log(`  error sample (${label}): ${sample}`);
+}
+
+/**
+ * Moves the willingness-to-travel slider the way a hand does (an input event React hears) and
+ * waits for the status to report the new result. Returns the wall time from the change to the
+ * status update, and the worker round trip the page itself measured.
+ */
+async function whatIfOnce(page: Page, value: number): Promise<{ wallMs: number; workerMs: number }> {
+  return page.evaluate(async (kmPerWeek) => {
+    const slider = document.querySelector<HTMLInputElement>('input[aria-label="Willingness to travel, km per week"]');
+    const status = document.querySelector('[data-testid="what-if-status"]');
+    if (!slider || !status) throw new Error("The what-if slider or its status is missing");
+    const setValue = Object.getOwnPropertyDescriptor(HTMLInputElement.prototype, "value")!.set!;
+    const started = performance.now();
+    const done = new Promise<{ wallMs: number; workerMs: number }>((resolve, reject) => {
+      const timer = setTimeout(() => {
+        observer.disconnect();
+        reject(new Error(`No what-if result within 30 s (status: ${status.textContent})`));
+      }, 30_000);
+      let sawSolving = false;
+      const check = () => {
+        if (status.textContent?.startsWith("Solving")) sawSolving = true;
+        if (!sawSolving) return;
+        const match = /What-if solved in (\d+) ms/.exec(status.textContent ?? "");
+        if (!match) return;
+        observer.disconnect();
+        clearTimeout(timer);
+        resolve({ wallMs: performance.now() - started, workerMs: Number(match[1]) });
+      };
+      const observer = new MutationObserver(check);
+      // The status first turns to "Solving…", then to the result: wait for the change, not the old text.
+      observer.observe(status, { childList: true, subtree: true, characterData: true });
+    });
+    setValue.call(slider, String(kmPerWeek));
+    slider.dispatchEvent(new Event("input", { bubbles: true }));
+    return done;
+  }, value);
+}
+
+async function main() {
+  if (!existsSync("build/server/index.js")) {
+    console.error("No production build: run `npx react-router build` first.");
+    process.exit(1);
+  }
+  const demo = readFileSync("seed/demo-scenario.json", "utf8");
+  const demoName = (JSON.parse(demo) as { name: string }).name;
+  const asset = readdirSync("build/client/assets").find((name) => name.endsWith(".css"));
+  if (!asset) throw new Error("No CSS asset in build/client/assets");
+
+  console.log(`# Web benchmark — ${new Date().toISOString()}, Node ${process.version}, ${os.cpus().length} CPUs (${os.cpus()[0]?.model ?? "?"}), load average ${os.loadavg().map((value) => value.toFixed(2)).join(" ")}`);
+  const app = await startApp();
+  const browser = await launchBrowser();
+  try {
+    const context = await browser.newContext({ viewport: { width: 1400, height: 1000 } });
+    const page = await context.newPage();
+    await signIn(page, app);
+    const token = await createToken(page, app);
+    const cookie = (await context.cookies(app.url)).map((entry) => `${entry.name}=${entry.value}`).join("; ");
+    const bearer = { Authorization: `Bearer ${token}` };
+
+    const listing = (await (await fetch(`${app.url}/api/v1/o/caldervey/scenarios`, { headers: bearer })).json()) as { scenarios: Array<{ id: number; name: string }> };
+    const scenario = listing.scenarios.find((entry) => entry.name === demoName);
+    if (!scenario) throw new Error(`The demo scenario "${demoName}" is not in the organisation`);
+    const workspace = `${app.url}/o/caldervey/scenarios/${scenario.id}`;
+
+    // Baselines: the HTTP stack alone, and a small server render.
+    record("baseline: static asset GET", await timeGets(`${app.url}/assets/${asset}`, {}, SAMPLES));
+    record("baseline: /sign-in GET (SSR, signed out)", await timeGets(`${app.url}/sign-in`, {}, SAMPLES));
+
+    // (a) The workspace page, server-rendered for a signed-in planner.
+    const noRun = await timeGets(workspace, { Cookie: cookie }, SAMPLES);
+    record("(a) workspace SSR, demo, no run yet", noRun, "", verdict(quantile([...noRun].sort((a, b) => a - b), 0.5), 300));
+    const created = await fetch(`${app.url}/api/v1/o/caldervey/scenarios/${scenario.id}/runs`, {
+      method: "POST",
+      headers: { ...bearer, "Content-Type": "application/json" },
+      body: JSON.stringify({ label: "benchmark", periods: false }),
+      signal: AbortSignal.timeout(REQUEST_TIMEOUT_MS),
+    });
+    if (created.status !== 201) throw new Error(`Creating a run answered ${created.status}: ${await created.text()}`);
+    const withRun = await timeGets(workspace, { Cookie: cookie }, SAMPLES);
+    record("(a) workspace SSR, demo, latest run shown", withRun, "", verdict(quantile([...withRun].sort((a, b) => a - b), 0.5), 300));
+
+    // (b) POST /api/v1/solve: one at a time first (the baseline), then under load.
+    const solveInit = (): RequestInit => ({ method: "POST", headers: { ...bearer, "Content-Type": "application/json" }, body: demo });
+    const stationary = `${app.url}/api/v1/solve?periods=0`;
+    const single = await load(stationary, solveInit, 1, Math.min(10, SECONDS));
+    recordLoad("baseline: solve, 1 client, stationary (periods=0)", single);
+    const loaded = await load(stationary, solveInit, CLIENTS, SECONDS);
+    recordLoad(`(b) solve, ${CLIENTS} clients × ${SECONDS} s, stationary (periods=0)`, loaded);
+    const fullSingle = await load(`${app.url}/api/v1/solve`, solveInit, 1, 1);
+    recordLoad("(b) solve, 1 request, as sent (all 12 periods)", fullSingle);
+    if (FULL) recordLoad(`(b) solve, ${CLIENTS} clients × ${SECONDS} s, all periods`, await load(`${app.url}/api/v1/solve`, solveInit, CLIENTS, SECONDS));
+
+    // (c) What-if in the browser's worker.
+    await page.goto(workspace);
+    await page.waitForSelector('[data-testid="region-map"][data-map-loaded="true"]', { timeout: 60_000 });
+    await page.getByTestId("what-if-panel").scrollIntoViewIfNeeded();
+    const wall: number[] = [];
+    const worker: number[] = [];
+    const values = [16, 14];
+    await whatIfOnce(page, 20); // warm-up: the worker's module loads on first use
+    for (let i = 0; i < Math.min(SAMPLES, 20); i++) {
+      const outcome = await whatIfOnce(page, values[i % 2]);
+      wall.push(outcome.wallMs);
+      worker.push(outcome.workerMs);
+    }
+    record("(c) what-if: worker round trip (page's own figure)", worker, "5 rules, stationary", verdict(quantile([...worker].sort((a, b) => a - b), 0.5), 100));
+    record("(c) what-if: slider change → result shown", wall, "includes the panel's 120 ms settle delay", "");
+
+    const parsed = JSON.parse(demo) as unknown;
+    const nodeTimes: number[] = [];
+    handleWorkerRequest({ id: 0, scenario: parsed, periods: false, rules: WHAT_IF_RULES });
+    for (let i = 0; i < Math.min(SAMPLES, 20); i++) {
+      const response = handleWorkerRequest({ id: i, scenario: parsed, periods: false, rules: WHAT_IF_RULES });
+      if (!response.ok) throw new Error(`The worker's solve failed: ${response.message}`);
+      nodeTimes.push(response.elapsedMs);
+    }
+    record("(c) cross-check: worker's solve in Node (this process)", nodeTimes, "same request as the page sends", "");
+    await context.close();
+  } finally {
+    await browser.close();
+    await app.stop();
+  }
+
+  const fmt = (value: number | null) => (value === null ? "–" : value.toFixed(1));
+  const widths = [Math.max(...rows.map((row) => row.measure.length)), 4, 9, 9];
+  console.log(`\n${"measure".padEnd(widths[0])} | ${"n".padStart(widths[1])} | ${"p50 ms".padStart(widths[2])} | ${"p95 ms".padStart(widths[3])} | target | notes`);
+  console.log(`${"-".repeat(widths[0])}-|-${"-".repeat(widths[1])}-|-${"-".repeat(widths[2])}-|-${"-".repeat(widths[3])}-|--------|------`);
+  for (const row of rows) {
+    console.log(`${row.measure.padEnd(widths[0])} | ${String(row.n).padStart(widths[1])} | ${fmt(row.p50).padStart(widths[2])} | ${fmt(row.p95).padStart(widths[3])} | ${row.target || "–"} | ${row.extra}`);
+  }
+  console.log(`\nLoad average after the run: ${os.loadavg().map((value) => value.toFixed(2)).join(" ")} (other work on the machine slows every figure).`);
+}
+
+await main();
