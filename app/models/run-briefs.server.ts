@@ -6,9 +6,8 @@ import { and, eq } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { runBriefs, runs } from "~/db/schema";
 import { recordAudit } from "./audit.server";
+import { RECOMMENDATION_MAX_LENGTH } from "./recommendation";
 
-/** Long enough for a board paper's recommendation section, short enough to print on a page or two. */
-export const RECOMMENDATION_MAX_LENGTH = 6_000;
 
 export interface RunBrief {
   recommendation: string;

@@ -14,9 +14,9 @@ import { idParam, methodNotAllowed, readJsonBody } from "./api-support.server";
 import type { Route } from "./+types/api.v1.o.$org.scenarios.$id.advisor";
 
 /** The advisor re-solves a line per candidate and step: beyond this it is a batch job. */
-export const MAX_EXTRA_TEAMS = 20;
+const MAX_EXTRA_TEAMS = 20;
 
-export const advisorBody = z.object({
+const advisorBody = z.object({
   extraTeams: z
     .number({ error: "extraTeams must be a whole number of teams" })
     .int({ error: "extraTeams must be a whole number of teams" })

@@ -24,7 +24,8 @@ import { getRegionMap } from "~/models/region-maps.server";
 import { RULE_LABELS, siteRows, summariseRules, UTILISATION_WARNING, type ResultDocument } from "~/models/result-document";
 import { getVisibleRun, seesUnpublished, setRunPublished } from "~/models/publishing.server";
 import { runContextOf } from "~/models/outlooks.server";
-import { getRunBrief, RECOMMENDATION_MAX_LENGTH, saveRecommendation } from "~/models/run-briefs.server";
+import { RECOMMENDATION_MAX_LENGTH } from "~/models/recommendation";
+import { getRunBrief, saveRecommendation } from "~/models/run-briefs.server";
 import type { Route } from "./+types/o.$org.runs.$runId.brief";
 
 const BRIEF_ROLES: readonly Role[] = ["administrator", "planner", "access_officer", "reader"];
