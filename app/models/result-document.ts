@@ -238,3 +238,32 @@ export function siteRows(result: ResultDocument, lines?: string[]): SiteRuleRow[
   }
   return [...rows.values()];
 }
+
+/**
+ * Only what the workspace shows (headline figures, each site's and practice's figures and flows):
+ * pages carry the result inside their HTML, and the engine's further detail roughly doubles it.
+ */
+export function slimResult(result: ResultDocument): ResultDocument {
+  const lines: Record<string, LineResult> = {};
+  for (const [lineId, line] of Object.entries(result.lines)) {
+    const rules: LineResult["rules"] = {};
+    for (const [key, rule] of Object.entries(line.rules)) {
+      if (!rule) continue;
+      rules[key] = {
+        converged: rule.converged,
+        iterations: rule.iterations,
+        relativeGap: rule.relativeGap,
+        totalCost: rule.totalCost,
+        servedPerWeek: rule.servedPerWeek,
+        balkedPerWeek: rule.balkedPerWeek,
+        meanWaitWeeks: rule.meanWaitWeeks,
+        meanKm: rule.meanKm,
+        shareWithinStandard: rule.shareWithinStandard,
+        providers: rule.providers.map(({ id, inflow, utilisation, meanWaitWeeks, shareWithinStandard }) => ({ id, inflow, utilisation, meanWaitWeeks, shareWithinStandard })),
+        sources: rule.sources.map(({ id, demand, balked, meanWaitWeeks, meanKm, meanCost, flows }) => ({ id, demand, balked, meanWaitWeeks, meanKm, meanCost, flows })),
+      };
+    }
+    lines[lineId] = { name: line.name, standardWeeks: line.standardWeeks, priceOfAnarchy: line.priceOfAnarchy, rules };
+  }
+  return { schema: result.schema, priceOfAnarchy: result.priceOfAnarchy, lines, warnings: result.warnings };
+}

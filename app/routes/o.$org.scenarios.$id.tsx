@@ -17,7 +17,7 @@ import { PlanningCautions } from "~/components/planning-cautions";
 import { RegionMap, type MapFlow, type MapPractice, type MapSite, type PracticeShading } from "~/components/region-map";
 import { CSV_FILE_NAMES } from "~/models/csv-import";
 import { getRegionMap } from "~/models/region-maps.server";
-import { RULE_LABELS, rulesIn, type ResultDocument } from "~/models/result-document";
+import { RULE_LABELS, rulesIn, slimResult, type ResultDocument } from "~/models/result-document";
 import { getRun, listRuns } from "~/models/runs.server";
 import { addSite, moveSite, practiceDemand, removeSite, type ScenarioDoc } from "~/models/scenario-document";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
@@ -63,7 +63,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
           converged: run.converged,
           durationMs: run.durationMs,
           input: run.input as ScenarioDoc,
-          result: run.result as unknown as ResultDocument,
+          result: slimResult(run.result as unknown as ResultDocument),
         }
       : null,
     region: region as FeatureCollection | null,
