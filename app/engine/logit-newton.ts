@@ -95,10 +95,7 @@ export class LogitWorkspace {
  * Logit split at site costs w: fills the workspace's kept options and shares, served demand,
  * site inflows and the residual R. Returns ‖R‖₂.
  */
-export const evaluationCount = { value: 0 };
-
 export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws: LogitWorkspace): number {
-  evaluationCount.value++;
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
   const lists = nearestSites(pairCost, n, m);
   const { sites: listed, count, bound, perSource } = lists;
