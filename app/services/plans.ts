@@ -44,7 +44,7 @@ export const PLANS: Record<PlanKey, Plan> = {
     summary: `Free for ${TRIAL_DAYS} days: one small region, a few colleagues.`,
     monthlyPence: null,
     lookupKey: null,
-    limits: { seats: 3, scenarios: 5, problemSize: 300, api: false },
+    limits: { seats: 8, scenarios: 12, problemSize: 300, api: false },
   },
   locality: {
     key: "locality",
@@ -52,7 +52,7 @@ export const PLANS: Record<PlanKey, Plan> = {
     summary: "For a commissioning team planning one area's elective care.",
     monthlyPence: 39_000,
     lookupKey: "equilibra_locality_monthly",
-    limits: { seats: 10, scenarios: 30, problemSize: 3_000, api: false },
+    limits: { seats: 25, scenarios: 30, problemSize: 3_000, api: false },
   },
   region: {
     key: "region",

@@ -40,7 +40,7 @@ describe("the billing page", () => {
     expect(html).toContain('data-testid="current-plan" class="font-semibold">Trial</dd>');
     expect(html).toContain("Free trial");
     expect(html).toContain("Trial ends on");
-    expect(html).toMatch(/data-testid="seats-used">2(<!-- -->)? of (<!-- -->)?3(<!-- -->)? used/);
+    expect(html).toMatch(/data-testid="seats-used">2(<!-- -->)? of (<!-- -->)?8(<!-- -->)? used/);
     expect(html).toContain(">Subscribe to Locality</button>");
     expect(html).toContain(">Subscribe to Region</button>");
     expect(html).not.toContain("Cancel at end of period");

@@ -83,12 +83,12 @@ describe("checkPlanLimit", () => {
   const region = planStanding({ subscription: facts({ planKey: "region" }), organisationCreatedAt: created, now: created });
 
   it("allows the last seat and refuses the next, naming the limit and what is in use", () => {
-    expect(checkPlanLimit(trial, "seats", { seats: 2 })).toEqual({ ok: true });
-    expect(checkPlanLimit(trial, "seats", { seats: 3 })).toEqual({
+    expect(checkPlanLimit(trial, "seats", { seats: 7 })).toEqual({ ok: true });
+    expect(checkPlanLimit(trial, "seats", { seats: 8 })).toEqual({
       ok: false,
       gate: "seats",
       message:
-        "Seat limit reached: the Trial plan allows 3 seats (members and pending invitations) and 3 are in use. " +
+        "Seat limit reached: the Trial plan allows 8 seats (members and pending invitations) and 8 are in use. " +
         "The Locality plan allows more; an administrator can change plan on the billing page.",
     });
   });

@@ -111,7 +111,7 @@ describe("an administrator subscribes, changes plan, cancels, and the plan ends"
     const trialLimit = await thrownResponse(() => requireWithinPlan(organisation, "scenarios"));
     expect(trialLimit.status).toBe(403);
     expect(trialLimit.headers.get("X-Plan-Limit")).toBe("scenarios");
-    expect(await trialLimit.text()).toMatch(/Scenario limit reached: the Trial plan allows 5 scenarios/);
+    expect(await trialLimit.text()).toMatch(/Scenario limit reached: the Trial plan allows 12 scenarios/);
     expect((await billingPage(organisation.slug, cookie)).plan.key).toBe("trial");
 
     // Checkout: redirect to the hosted page, pay with the test card, come back to the success page.
@@ -145,7 +145,7 @@ describe("an administrator subscribes, changes plan, cancels, and the plan ends"
     expect(page.plan.name).toBe("Locality");
     expect(page.status).toBe("active");
     expect(page.usage.seats).toBe(1);
-    expect(page.plan.limits.seats).toBe(10);
+    expect(page.plan.limits.seats).toBe(25);
     expect(new Date(page.currentPeriodEnd ?? 0).getTime()).toBeGreaterThan(Date.now() + 27 * 86_400_000);
     expect(page.invoices).toHaveLength(1);
     expect(page.invoices[0]).toMatchObject({ status: "paid", amountDuePence: 39_000, amountPaidPence: 39_000, currency: "gbp" });
