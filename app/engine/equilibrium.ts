@@ -4,7 +4,7 @@
  * page range). Every option a source's patients use costs the same and none is cheaper; the
  * patients who balk are exactly those whose reservation cost is below that cost.
  *
- * Method (README-solvers.md has the full story): Newton on the m site costs for the logit model,
+ * Method (README.md has the full story): Newton on the m site costs for the logit model,
  * with θ raised by decades from a smooth start (continuation), then the exact θ = ∞ finish on the
  * tied structure (`wardrop-finish.ts`). The same driver solves the optimum on marginal-cost
  * curves (`optimum.ts`). Flows among tied options are the maximum-entropy split.

@@ -1,7 +1,7 @@
 /**
  * A site's cost as a function of its routine inflow, and the inverse the solvers work with.
  *
- * The solvers (see README-solvers.md) iterate on the m site costs w_j, not on the n·m flows: for a
+ * The solvers (see README.md) iterate on the m site costs w_j, not on the n·m flows: for a
  * cost w_j they need the inflow x_j that produces it, x_j = W_j⁻¹(w_j), and its slope 1/W_j'(x_j).
  * The same code serves two curves:
  *  - the mean wait W_j(x) (the choice model, Wardrop's first principle), and
