@@ -105,7 +105,7 @@ try {
               }
             } catch (error) {
               errors++;
-              console.log(`request failed: ${(error as Error).message}`);
+              console.log(`request failed: ${(error as Error).message} ${String((error as Error).cause ?? "")}`);
             }
             latencies.push(performance.now() - t);
           }
