@@ -78,7 +78,8 @@ export interface ExactPlacement {
   placement: Record<string, Record<string, number>>;
   /** True when the greedy placement costs the same (to 1e-9 relative) as the exact one. */
   agreesWithGreedy: boolean;
-  solves: number;
+  /** Line placements compared (each a full solve, some shared with the greedy steps). */
+  placementsCompared: number;
 }
 
 export interface ExactSkipped {
@@ -309,7 +310,6 @@ function exactPlacement(
       solvesNeeded,
     };
   }
-  const solvesBefore = lines.reduce((sum, lineId) => sum + costs.get(lineId)!.solves, 0);
 
   // Costs enter the program relative to each line's cheapest placement: the simplex then works
   // with numbers of the size of the differences it has to tell apart.
@@ -350,12 +350,11 @@ function exactPlacement(
       if (count > 0) placement[line.sites[j]] = { ...(placement[line.sites[j]] ?? {}), [option.lineId]: count };
     });
   }
-  const solves = lines.reduce((sum, lineId) => sum + costs.get(lineId)!.solves, 0) - solvesBefore;
   return {
     status: "solved",
     totalCost,
     placement,
     agreesWithGreedy: Math.abs(greedyCost - totalCost) <= 1e-9 * Math.max(1, Math.abs(totalCost)),
-    solves,
+    placementsCompared: solvesNeeded,
   };
 }

@@ -83,7 +83,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     siteRows: siteRows(result),
     siteNames: Object.fromEntries(scenario.providers.map((provider) => [provider.id, provider.name ?? provider.id])),
     balkingByDecile: balking.byDecile,
-    warnings: run.result.warnings,
+    // Utilisation warnings are the ⚠ marks of the site table; the rest are listed.
+    warnings: run.result.warnings.filter((warning) => !/utilisation .* is at or above/.test(warning)),
     map: {
       region: region as FeatureCollection | null,
       practices: balking.practices.map((practice) => ({ id: practice.sourceId, name: practice.name ?? undefined, lat: practice.lat, lon: practice.lon, demand: practice.demandPerWeek, shade: practice.balkedShare })),

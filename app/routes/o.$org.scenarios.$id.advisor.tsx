@@ -5,7 +5,7 @@
  * problems an exact integer placement confirms the greedy one. The page asks the API
  * (`POST /api/v1/o/:org/scenarios/:id/advisor`) through a fetcher and shows the ranked steps.
  */
-import { useState } from "react";
+import { useEffect, useState } from "react";
 import { Link, useFetcher } from "react-router";
 import { requireRole } from "~/auth/guards.server";
 import { notFound } from "~/auth/http-errors";
@@ -48,6 +48,9 @@ export default function AdvisorPage({ loaderData }: Route.ComponentProps) {
   const [extraTeams, setExtraTeams] = useState("2");
   const [chosenLines, setChosenLines] = useState<string[]>(lines.map((line) => line.id));
   const [limits, setLimits] = useState<Record<string, string>>({});
+  // The form posts through a fetcher: until the page is hydrated the button waits.
+  const [hydrated, setHydrated] = useState(false);
+  useEffect(() => setHydrated(true), []);
   const busy = fetcher.state !== "idle";
   const reply = fetcher.data;
   const siteName = Object.fromEntries(sites.map((site) => [site.id, site.name]));
@@ -118,7 +121,7 @@ export default function AdvisorPage({ loaderData }: Route.ComponentProps) {
             ))}
           </div>
         </fieldset>
-        <button type="submit" disabled={busy || chosenLines.length === 0} className="rounded bg-accent px-4 py-1.5 font-semibold text-white">
+        <button type="submit" disabled={!hydrated || busy || chosenLines.length === 0} className="rounded bg-accent px-4 py-1.5 font-semibold text-white">
           {busy ? "Solving…" : "Advise"}
         </button>
       </form>
@@ -173,7 +176,7 @@ export default function AdvisorPage({ loaderData }: Route.ComponentProps) {
               <p className="text-xs">
                 {result.exact.status === "solved"
                   ? result.exact.agreesWithGreedy
-                    ? `Confirmed: an exact integer placement over every combination (${result.exact.solves} line solves) gives the same total cost.`
+                    ? `Confirmed: an exact integer placement over every combination (${result.exact.placementsCompared} line placements solved) gives the same total cost.`
                     : `The exact integer placement does better: total cost ${fmt(result.exact.totalCost)} with ${Object.entries(result.exact.placement)
                         .map(([site, byLine]) => Object.entries(byLine).map(([line, count]) => `${count} at ${site} ${line}`).join(", "))
                         .join(", ")}.`
