@@ -14,7 +14,7 @@ import { parseScenario, type Scenario } from "~/engine/scenario";
 import { balkingSensitivity, type BalkingSensitivity, type SensitivityOptions } from "~/engine/sensitivity";
 import { siteOutlook, type SiteOutlook, type SiteOutlookOptions } from "~/engine/site-outlook";
 import type { Membership } from "./organisations.server";
-import { canSeeSite, defaultRunId, getVisibleRun, siteScope, type VisibleRunDetail } from "./publishing.server";
+import { canSeeSite, defaultRunId, getVisibleRun, listVisibleRuns, siteScope, type VisibleRunDetail } from "./publishing.server";
 
 export interface OutlookRun {
   run: VisibleRunDetail;
@@ -87,4 +87,27 @@ export function sensitivityFor(opened: OutlookRun, options: SensitivityOptions):
 /** The advisor on a scenario document (a scenario as stored now, or a run's snapshot), keyed by `version`. */
 export function capacityAdviceFor(document: unknown, version: string, options: CapacityAdvisorOptions): CapacityAdvice {
   return remembered(`advice:${version}:${JSON.stringify(options)}`, () => adviseCapacity(parseScenario(document), options));
+}
+
+/** What a page shows beside the figures (see `app/components/run-context.tsx`), as plain JSON. */
+export function runContextOf(opened: OutlookRun) {
+  const { run } = opened;
+  return {
+    scenarioName: run.scenarioName,
+    runId: run.id,
+    runLabel: run.label,
+    ranAt: run.createdAt.toISOString(),
+    publishedAt: run.publishedAt?.toISOString() ?? null,
+    publishedByName: run.publishedByName,
+    dataDate: opened.dataDate,
+    assumptions: run.result.assumptions,
+  };
+}
+
+/** The visible runs for a run picker, as plain JSON. */
+export function runChoices(runs: Awaited<ReturnType<typeof listVisibleRuns>>) {
+  return runs.map((run) => ({
+    id: run.id,
+    label: `${run.scenarioName} · ${run.label ?? `run ${run.id}`} · ${run.createdAt.toISOString().slice(0, 10)}${run.publishedAt ? " · published" : ""}`,
+  }));
 }
