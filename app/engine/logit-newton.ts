@@ -308,7 +308,7 @@ export function logitNewton(
   maxIterations: number,
 ): NewtonOutcome {
   const { m } = view;
-  let norm = evaluateLogit(view, theta, w, ws);
+  evaluateLogit(view, theta, w, ws);
   let iterations = 0;
   while (absoluteSum(ws.residual) > tolerance && iterations < maxIterations) {
     iterations++;
@@ -318,17 +318,27 @@ export function logitNewton(
     let largest = 0;
     for (let j = 0; j < m; j++) if (Number.isFinite(w[j])) largest = Math.max(largest, Math.abs(ws.step[j]) / (4 * LOGIT_CUTOFF / theta + Math.abs(w[j])));
     let alpha = largest > 1 ? 1 / largest : 1;
+    // Line search on the concave dual Ψ (whose gradient is R) through its slope along the step,
+    // φ'(α) = R(w + αΔ)·Δ, which falls as α grows. The Newton (or any CG) direction climbs:
+    // φ'(0) = RᵀΔ > 0. A step is taken once the slope has not turned strongly negative (a strong
+    // Wolfe curvature condition); an overshoot is cut back by a secant on φ'. One evaluation per
+    // iteration is the rule, and inexact directions need no accurate solve to be accepted.
+    let slope0 = 0;
+    for (let j = 0; j < m; j++) if (ws.step[j] !== 0) slope0 += ws.residual[j] * ws.step[j];
     let accepted = false;
-    for (let attempt = 0; attempt < 50; attempt++) {
-      for (let j = 0; j < m; j++) ws.trial[j] = w[j] + alpha * ws.step[j];
-      const trialNorm = evaluateLogit(view, theta, ws.trial, ws);
-      if (trialNorm <= (1 - 1e-4 * alpha) * norm || trialNorm === 0) {
-        w.set(ws.trial);
-        norm = trialNorm;
-        accepted = true;
-        break;
+    if (slope0 > 0) {
+      for (let attempt = 0; attempt < 40; attempt++) {
+        for (let j = 0; j < m; j++) ws.trial[j] = w[j] + alpha * ws.step[j];
+        evaluateLogit(view, theta, ws.trial, ws);
+        let slope = 0;
+        for (let j = 0; j < m; j++) if (ws.step[j] !== 0) slope += ws.residual[j] * ws.step[j];
+        if (slope >= -0.5 * slope0) {
+          w.set(ws.trial);
+          accepted = true;
+          break;
+        }
+        alpha *= Math.max(slope0 / (slope0 - slope), 0.05);
       }
-      alpha *= 0.5;
     }
     if (!accepted) {
       // Re-evaluate at the last accepted point so the workspace describes w.

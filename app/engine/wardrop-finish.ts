@@ -82,10 +82,12 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
     if (iterations >= maxIterations) {
       return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message: "the iteration budget ran out" };
     }
+    // Groups are independent systems: a round costs as many iterations as its slowest group.
+    let roundIterations = 0;
     for (const group of groups) {
       initialiseGroup(view, group, w, theta, eta);
       const solved = solveGroup(view, group, tie, sourceOffset, eta);
-      iterations += solved.iterations;
+      roundIterations = Math.max(roundIterations, solved.iterations);
       // A group that cannot balance has the wrong sources (e.g. more fixed demand than the
       // sites can take): vanishing shares are dropped now; otherwise the check below, run on
       // the group's last iterate, offers its sources their cheaper options.
@@ -94,6 +96,7 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
         else unbalanced++;
       }
     }
+    iterations += roundIterations;
     if (pruned) continue;
     // Assemble the allocation on the solved structure.
     siteCost.fill(NaN);
