@@ -82,12 +82,15 @@ export function relativeGap(
     // Served patients paying `cheapest` plus balkers paying B(b), against each patient's own best.
     let balkExcess: number;
     if (!Number.isFinite(outsideCost[i])) balkExcess = balked > 0 ? Infinity : 0;
+    // No allowed site (e.g. every pair beyond a journey limit): balking is the only option, so
+    // the balkers pay exactly their own best and the source adds nothing (0·∞ must not be NaN).
+    else if (!(cheapest < Infinity)) balkExcess = served > 0 ? Infinity : 0;
     else if (outsideSpread[i] === 0) {
       const o = outsideCost[i];
       balkExcess = cheapest <= o ? balked * (o - cheapest) : served * (cheapest - o);
     } else {
-      const best = Number.isFinite(cheapest) ? demand[i] * expectedPatientCost(cheapest, outsideCost[i], outsideSpread[i]) : 0;
-      balkExcess = Math.max(0, (Number.isFinite(cheapest) ? served * cheapest : 0) + balkCost - best);
+      const best = demand[i] * expectedPatientCost(cheapest, outsideCost[i], outsideSpread[i]);
+      balkExcess = Math.max(0, served * cheapest + balkCost - best);
     }
     excess += routeExcess + balkExcess;
   }
