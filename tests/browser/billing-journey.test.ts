@@ -8,10 +8,9 @@
  */
 import type { Browser, Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { DEMO_PEOPLE } from "../../seed/people";
 import { TEST_CARDS } from "../../app/fakes/stripe/pages";
 import { PAID_PLANS } from "../../app/services/plans";
-import { launchBrowser, startApp, type RunningApp } from "./harness";
+import { launchBrowser, signInAs, startApp, type RunningApp } from "./harness";
 
 let app: RunningApp;
 let browser: Browser;
@@ -25,15 +24,6 @@ afterAll(async () => {
   await browser?.close();
   await app?.stop();
 });
-
-async function signInAsAdministrator(page: Page) {
-  const person = DEMO_PEOPLE.find((candidate) => candidate.role === "administrator" && candidate.organisation === "caldervey");
-  if (!person) throw new Error("No demo administrator of caldervey");
-  await page.goto(`${app.url}/sign-in`);
-  await page.getByRole("button", { name: /sign in/i }).first().click();
-  await page.locator("button.person", { hasText: person.name }).click();
-  await page.waitForURL((url) => url.origin === app.url && !url.pathname.startsWith("/auth/"));
-}
 
 /** Reloads the billing page until `ready` holds, at most `attempts` times over about `attempts` × 0.5 s. */
 async function reloadUntil(page: Page, ready: () => Promise<boolean>, attempts = 40): Promise<boolean> {
@@ -50,7 +40,7 @@ describe("subscribing through the fake Stripe's hosted payment page", () => {
     const plan = PAID_PLANS[0];
     const context = await browser.newContext();
     const page = await context.newPage();
-    await signInAsAdministrator(page);
+    await signInAs(page, app, "administrator");
 
     await page.goto(`${app.url}/o/caldervey/billing`);
     // The demo organisation starts on the free trial, with no invoices.

@@ -8,7 +8,9 @@ import { existsSync, mkdtempSync, rmSync } from "node:fs";
 import net from "node:net";
 import os from "node:os";
 import path from "node:path";
-import { chromium, type Browser } from "playwright-core";
+import { chromium, type Browser, type Page } from "playwright-core";
+import type { Role } from "../../app/db/schema";
+import { DEMO_PEOPLE, type DemoOrganisationSlug, type DemoPerson } from "../../seed/people";
 
 export const CHROMIUM_PATH = process.env.CHROMIUM_PATH ?? "/usr/bin/chromium";
 
@@ -103,4 +105,19 @@ export async function launchBrowser(): Promise<Browser> {
       "--enable-unsafe-swiftshader",
     ],
   });
+}
+
+/**
+ * Signs in through the local fake identity provider as the demo person with `role` in `organisation`
+ * and waits until the app has taken over again. Returns the person.
+ */
+export async function signInAs(page: Page, app: RunningApp, role: Role, organisation: DemoOrganisationSlug = "caldervey"): Promise<DemoPerson> {
+  const person = DEMO_PEOPLE.find((candidate) => candidate.role === role && candidate.organisation === organisation);
+  if (!person) throw new Error(`No demo ${role} of ${organisation}`);
+  await page.goto(`${app.url}/sign-in`);
+  await page.getByRole("button", { name: /sign in/i }).first().click();
+  // The fake identity provider's own page lists the demo people.
+  await page.locator("button.person", { hasText: person.name }).click();
+  await page.waitForURL((url) => url.origin === app.url && !url.pathname.startsWith("/auth/"));
+  return person;
 }

@@ -2,10 +2,9 @@
  * Browser journey (issue: foundation): sign in through the local fake identity provider as a planner
  * and reach the scenario list; sign in as a reader and be refused a scenario's edit page.
  */
-import type { Browser, Page } from "playwright-core";
+import type { Browser } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { DEMO_PEOPLE } from "../../seed/people";
-import { launchBrowser, startApp, type RunningApp } from "./harness";
+import { launchBrowser, signInAs, startApp, type RunningApp } from "./harness";
 
 let app: RunningApp;
 let browser: Browser;
@@ -20,27 +19,11 @@ afterAll(async () => {
   await app?.stop();
 });
 
-function demoPerson(role: string) {
-  const person = DEMO_PEOPLE.find((candidate) => candidate.role === role && candidate.organisation === "caldervey");
-  if (!person) throw new Error(`No demo person with role ${role}`);
-  return person;
-}
-
-async function signInAs(page: Page, role: string) {
-  const person = demoPerson(role);
-  await page.goto(`${app.url}/sign-in`);
-  await page.getByRole("button", { name: /sign in/i }).first().click();
-  // The fake identity provider's own page lists the demo people.
-  await page.locator("button.person", { hasText: person.name }).click();
-  await page.waitForURL((url) => url.origin === app.url && !url.pathname.startsWith("/auth/"));
-  return person;
-}
-
 describe("signing in through the local identity provider", () => {
   it("takes a planner to the scenario list", async () => {
     const context = await browser.newContext();
     const page = await context.newPage();
-    const person = await signInAs(page, "planner");
+    const person = await signInAs(page, app, "planner");
     await page.waitForURL(/\/o\/caldervey\/scenarios$/);
     expect(await page.getByRole("heading", { level: 1 }).first().textContent()).toMatch(/scenarios/i);
     expect(await page.getByText(person.name).first().isVisible()).toBe(true);
@@ -50,7 +33,7 @@ describe("signing in through the local identity provider", () => {
   it("refuses a reader a scenario's edit page", async () => {
     const context = await browser.newContext();
     const page = await context.newPage();
-    await signInAs(page, "reader");
+    await signInAs(page, app, "reader");
     await page.waitForURL(/\/o\/caldervey\/scenarios$/);
     const firstScenario = page.locator('a[href^="/o/caldervey/scenarios/"]').first();
     const href = await firstScenario.getAttribute("href");

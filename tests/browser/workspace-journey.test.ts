@@ -9,11 +9,10 @@ import { readFile } from "node:fs/promises";
 import Papa from "papaparse";
 import type { Browser, BrowserContext, Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { DEMO_PEOPLE } from "../../seed/people";
 import { RULE_LABELS, summariseRules, type ResultDocument } from "../../app/models/result-document";
 import type { ScenarioDoc } from "../../app/models/scenario-document";
 import { PLANNING_CAUTIONS } from "../../app/engine/cautions";
-import { launchBrowser, startApp, type RunningApp } from "./harness";
+import { launchBrowser, signInAs, startApp, type RunningApp } from "./harness";
 
 let app: RunningApp;
 let browser: Browser;
@@ -29,15 +28,6 @@ afterAll(async () => {
 });
 
 const ORG = "caldervey";
-
-async function signInAsPlanner(page: Page) {
-  const person = DEMO_PEOPLE.find((candidate) => candidate.role === "planner" && candidate.organisation === ORG);
-  if (!person) throw new Error("No demo planner of caldervey");
-  await page.goto(`${app.url}/sign-in`);
-  await page.getByRole("button", { name: /sign in/i }).first().click();
-  await page.locator("button.person", { hasText: person.name }).click();
-  await page.waitForURL(/\/o\/caldervey\/scenarios$/);
-}
 
 /** The API as the signed-in browser sees it (the context's cookies go with the request). */
 async function apiJson<T>(context: BrowserContext, path: string): Promise<T> {
@@ -115,7 +105,8 @@ describe("a planner's day in the scenario workspace", () => {
   it("imports, fixes a row, runs, compares rules, moves a site, re-runs and exports", async () => {
     const context = await browser.newContext({ viewport: { width: 1400, height: 1000 }, acceptDownloads: true });
     const page = await context.newPage();
-    await signInAsPlanner(page);
+    await signInAs(page, app, "planner");
+    await page.waitForURL(/\/o\/caldervey\/scenarios$/);
 
     const scenarioLink = page.getByRole("link", { name: "Caldervey 2026/27 baseline" }).first();
     const scenarioPath = (await scenarioLink.getAttribute("href"))!.match(/^\/o\/caldervey\/scenarios\/\d+/)![0];
