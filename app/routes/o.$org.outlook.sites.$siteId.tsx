@@ -5,7 +5,7 @@
  *
  * A site outside the viewer's scope answers 404, exactly like one that does not exist.
  */
-import { Link } from "react-router";
+import { Form, Link } from "react-router";
 import { requireRole } from "~/auth/guards.server";
 import { notFound } from "~/auth/http-errors";
 import { formatNumber } from "~/components/data-table";
@@ -73,6 +73,30 @@ export default function SiteDetailPage({ loaderData }: Route.ComponentProps) {
           </a>
         </p>
       </header>
+      <Form method="get" className="no-print flex flex-wrap items-end gap-4 rounded border border-rule bg-white p-4 text-sm">
+        <input type="hidden" name="run" value={runId} />
+        <label className="flex flex-col">
+          Rule
+          <select name="rule" defaultValue={query.rule} className="rounded border border-rule px-2 py-1">
+            {rules.map((rule) => (
+              <option key={rule} value={rule}>
+                {RULE_LABELS[rule] ?? rule}
+              </option>
+            ))}
+          </select>
+        </label>
+        <label className="flex flex-col">
+          Target share within the standard (%)
+          <input name="target" type="number" min="1" max="99.9" step="0.1" defaultValue={query.target} className="w-28 rounded border border-rule px-2 py-1 num" />
+        </label>
+        <label className="flex flex-col">
+          Standard (weeks; blank = the line's own)
+          <input name="standard" type="number" min="0" step="0.5" defaultValue={query.standard ?? ""} className="w-28 rounded border border-rule px-2 py-1 num" />
+        </label>
+        <button type="submit" className="rounded bg-accent px-4 py-1.5 font-semibold text-white">
+          Recompute teams needed
+        </button>
+      </Form>
       {lines.map((line) => {
         const lineRows = rows.filter((row) => row.lineId === line.id && row.rule === query.rule);
         return (
