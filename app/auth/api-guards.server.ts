@@ -6,12 +6,15 @@
  * - no or an unknown credential → 401;
  * - an organisation that does not exist, that the person is not a member of, or that the token
  *   does not belong to → 404 (another tenant's slug reveals nothing);
- * - a role that does not allow the action → 403.
+ * - a role that does not allow the action → 403;
+ * - a personal API token of an organisation whose plan has no API access → 403 naming the plan.
+ *   Only tokens are gated: the app's own pages call the same API with the session.
  */
 import type { Role } from "~/db/schema";
 import { authenticateApiToken } from "~/models/api-tokens.server";
 import { recordAudit } from "~/models/audit.server";
 import { getMembership, getOrganisationBySlug, ROLE_LABELS, type Membership, type Organisation } from "~/models/organisations.server";
+import { planRefusal } from "~/models/plan-gates.server";
 import type { User } from "~/models/users.server";
 import { getOptionalUser } from "./guards.server";
 
@@ -65,6 +68,7 @@ export async function requireApiMember(request: Request, slug: string | undefine
     if (token.organisation.slug !== slug) throw apiError(404, API_NOT_FOUND);
     organisation = token.organisation;
     membership = token.membership;
+    await requireApiAccess(organisation);
     // Administrators read token use in the audit log (app/routes/o.$org.audit.tsx).
     await recordAudit(organisation.id, user.id, "api_token.used", `api_token:${token.tokenId}`, { method: request.method, path: new URL(request.url).pathname });
   } else {
@@ -79,6 +83,12 @@ export async function requireApiMember(request: Request, slug: string | undefine
     );
   }
   return { user, organisation, membership, via: token ? "token" : "session" };
+}
+
+/** For calls made with a personal API token: the organisation's plan must include API access (403 otherwise). */
+export async function requireApiAccess(organisation: Organisation): Promise<void> {
+  const refusal = await planRefusal(organisation, ["api"]);
+  if (refusal) throw apiError(403, refusal.message);
 }
 
 /** Roles that may change scenarios and run them; everyone in the organisation may read. */

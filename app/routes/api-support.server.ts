@@ -4,6 +4,9 @@
  * (Not a route: `app/routes.ts` lists routes explicitly.)
  */
 import { apiError } from "~/auth/api-guards.server";
+import { planRefusal, type ScenarioSize } from "~/models/plan-gates.server";
+import type { PlanSubject } from "~/models/plan-limits.server";
+import type { PlanGate } from "~/services/plans";
 
 /** Largest request body accepted: a region of thousands of practices with a km matrix fits. */
 export const MAX_BODY_BYTES = 12 * 1024 * 1024;
@@ -24,6 +27,12 @@ export async function readJsonBody(request: Request): Promise<unknown> {
 
 export function tooLarge(bytes: number): Response {
   return apiError(413, `The request is ${(bytes / 1024 / 1024).toFixed(1)} MB; the limit is ${MAX_BODY_BYTES / 1024 / 1024} MB.`);
+}
+
+/** Throws the API's 403 naming the limit when the organisation's plan refuses one of `gates`. */
+export async function requireApiPlan(organisation: PlanSubject, gates: readonly PlanGate[], size: Partial<ScenarioSize> = {}): Promise<void> {
+  const refusal = await planRefusal(organisation, gates, size);
+  if (refusal) throw apiError(403, refusal.message);
 }
 
 export function idParam(value: string | undefined, what: string): number {

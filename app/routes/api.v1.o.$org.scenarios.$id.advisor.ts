@@ -10,7 +10,8 @@ import { getDb } from "~/db/client.server";
 import { NoSteadyStateError } from "~/engine/problem";
 import { capacityAdviceFor } from "~/models/outlooks.server";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
-import { idParam, methodNotAllowed, readJsonBody } from "./api-support.server";
+import { scenarioSize } from "~/models/plan-gates.server";
+import { idParam, methodNotAllowed, readJsonBody, requireApiPlan } from "./api-support.server";
 import type { Route } from "./+types/api.v1.o.$org.scenarios.$id.advisor";
 
 /** The advisor re-solves a line per candidate and step: beyond this it is a batch job. */
@@ -39,6 +40,8 @@ export async function action({ request, params }: Route.ActionArgs) {
   const scenario = await getScenario(db, organisation.id, id);
   if (!scenario) return apiError(404, "No such scenario in this organisation.");
   const document = await exportScenario(db, organisation.id, id);
+  // The advisor solves the scenario once per candidate site: it is a run as far as the plan goes.
+  await requireApiPlan(organisation, ["runs", "problemSize"], scenarioSize(document));
   try {
     const advice = capacityAdviceFor(document, `scenario:${id}:${scenario.updatedAt.toISOString()}`, parsed.data);
     return Response.json({ scenarioId: id, advice });

@@ -11,9 +11,10 @@ import { getDb } from "~/db/client.server";
 import { ScenarioInputError } from "~/engine/problem";
 import { parseScenario } from "~/engine/scenario";
 import { CSV_FILE_KINDS, CSV_FILE_NAMES, importCsvFiles, MAX_CSV_BYTES, type CsvFiles, type CsvRowError } from "~/models/csv-import";
+import { scenarioSize } from "~/models/plan-gates.server";
 import { exportScenario } from "~/models/scenarios.server";
 import { replaceScenarioInputs } from "~/models/scenario-edits.server";
-import { idParam, MAX_BODY_BYTES, tooLarge } from "./api-support.server";
+import { idParam, MAX_BODY_BYTES, requireApiPlan, tooLarge } from "./api-support.server";
 import type { Route } from "./+types/api.v1.o.$org.scenarios.$id.import";
 
 export interface ImportAnswer {
@@ -99,6 +100,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     }
     return answer({ stored: false, preview, rowCounts, errors: [] });
   }
+  await requireApiPlan(organisation, ["problemSize"], scenarioSize(document));
   try {
     await replaceScenarioInputs(organisation.id, id, document, { userId: user.id, reason: jsonText !== undefined ? "json import" : "csv import" });
   } catch (error) {

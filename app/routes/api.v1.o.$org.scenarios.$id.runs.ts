@@ -8,8 +8,9 @@ import { z } from "zod";
 import { apiError, EDITOR_ROLES, requireApiMember } from "~/auth/api-guards.server";
 import { getDb } from "~/db/client.server";
 import { createRun, listRuns } from "~/models/runs.server";
-import { getScenario } from "~/models/scenarios.server";
-import { idParam, methodNotAllowed } from "./api-support.server";
+import { scenarioSize } from "~/models/plan-gates.server";
+import { exportScenario, getScenario } from "~/models/scenarios.server";
+import { idParam, methodNotAllowed, requireApiPlan } from "./api-support.server";
 import type { Route } from "./+types/api.v1.o.$org.scenarios.$id.runs";
 
 const RULE_KEYS = ["choice", "choiceLogit", "optimum", "nearest", "capacityShare", "plan"] as const;
@@ -44,6 +45,9 @@ export async function action({ request, params }: Route.ActionArgs) {
   if (!parsed.success) {
     return apiError(400, "The run options are not valid.", parsed.error.issues.map((issue) => ({ path: issue.path.join("."), message: issue.message })));
   }
+  const document = await exportScenario(await getDb(), organisation.id, id);
+  if (!document) return apiError(404, "No such scenario in this organisation.");
+  await requireApiPlan(organisation, ["runs", "problemSize"], scenarioSize(document));
   const outcome = await createRun(organisation.id, id, { userId: user.id, label: parsed.data.label ?? undefined, periods: parsed.data.periods, rules: parsed.data.rules });
   if (outcome === null) return apiError(404, "No such scenario in this organisation.");
   if (!outcome.ok) return apiError(outcome.status, outcome.error, outcome.issues);

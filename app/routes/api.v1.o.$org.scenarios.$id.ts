@@ -10,7 +10,8 @@ import { getDb } from "~/db/client.server";
 import { ScenarioInputError } from "~/engine/problem";
 import { archiveScenario, exportScenario, getScenario, renameScenario } from "~/models/scenarios.server";
 import { replaceScenarioInputs, updateScenarioDetails } from "~/models/scenario-edits.server";
-import { idParam, methodNotAllowed, readJsonBody } from "./api-support.server";
+import { scenarioSize } from "~/models/plan-gates.server";
+import { idParam, methodNotAllowed, readJsonBody, requireApiPlan } from "./api-support.server";
 import type { Route } from "./+types/api.v1.o.$org.scenarios.$id";
 
 const patchSchema = z.object({
@@ -45,6 +46,8 @@ export async function action({ request, params }: Route.ActionArgs) {
   const id = idParam(params.id, "scenario");
   const body = await readJsonBody(request);
   if (request.method === "PUT") {
+    // Workspace edits and what-if saves send the whole document: its size is what the plan limits.
+    await requireApiPlan(organisation, ["problemSize"], scenarioSize(body));
     try {
       const replaced = await replaceScenarioInputs(organisation.id, id, body, { userId: user.id, reason: "api" });
       if (!replaced) return apiError(404, "No such scenario in this organisation.");
@@ -59,8 +62,11 @@ export async function action({ request, params }: Route.ActionArgs) {
     return apiError(400, "The changes are not valid.", parsed.error.issues.map((issue) => ({ path: issue.path.join("."), message: issue.message })));
   }
   const db = await getDb();
-  if (!(await getScenario(db, organisation.id, id))) return apiError(404, "No such scenario in this organisation.");
+  const scenario = await getScenario(db, organisation.id, id);
+  if (!scenario) return apiError(404, "No such scenario in this organisation.");
   const { name, description, dataDate, archived } = parsed.data;
+  // Restoring an archived scenario counts against the scenario limit again.
+  if (archived === false && scenario.archivedAt) await requireApiPlan(organisation, ["scenarios"]);
   try {
     if (name !== undefined) await renameScenario(db, organisation.id, id, name);
   } catch (error) {

@@ -8,8 +8,9 @@ import { apiError, EDITOR_ROLES, requireApiMember } from "~/auth/api-guards.serv
 import { getDb } from "~/db/client.server";
 import { ScenarioInputError } from "~/engine/problem";
 import { recordAudit } from "~/models/audit.server";
+import { scenarioSize } from "~/models/plan-gates.server";
 import { importScenario, listScenarios } from "~/models/scenarios.server";
-import { methodNotAllowed, readJsonBody } from "./api-support.server";
+import { methodNotAllowed, readJsonBody, requireApiPlan } from "./api-support.server";
 import type { Route } from "./+types/api.v1.o.$org.scenarios";
 
 export async function loader({ request, params }: Route.LoaderArgs) {
@@ -27,6 +28,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   const document = wrapped ? wrapped.scenario : body;
   const name = typeof wrapped?.name === "string" ? wrapped.name : undefined;
   const parentId = typeof wrapped?.parentId === "number" ? wrapped.parentId : undefined;
+  await requireApiPlan(organisation, ["scenarios", "problemSize"], scenarioSize(document));
   try {
     const id = await importScenario(await getDb(), organisation.id, document, { name, parentId, createdBy: user.id });
     await recordAudit(organisation.id, user.id, "scenario.created", `scenario:${id}`, { via: "api", parentId: parentId ?? null });

@@ -1,20 +1,24 @@
 /**
  * POST /api/v1/solve — an exchange-format scenario in, the result (`equilibra/result@1`) out.
- * Nothing is stored. Any signed-in person or live API token may solve.
+ * Nothing is stored. Any signed-in person or live API token may solve, within a plan: a token
+ * within its organisation's plan (API access, runs, problem size); a session within the plan of
+ * any organisation the person belongs to.
  * Query options: `periods=0` solves only the stationary problem (not the scenario's periods);
  * `rules=choice,optimum` solves only those rules.
  */
-import { apiError, requireApiUser } from "~/auth/api-guards.server";
+import { apiError, requireApiAccess, requireApiUser } from "~/auth/api-guards.server";
 import type { RuleKey } from "~/engine/problem";
+import { planRefusalForPerson, scenarioSize } from "~/models/plan-gates.server";
 import { solveDocument } from "~/models/runs.server";
-import { methodNotAllowed, readJsonBody } from "./api-support.server";
+import { methodNotAllowed, readJsonBody, requireApiPlan } from "./api-support.server";
 import type { Route } from "./+types/api.v1.solve";
 
 const RULE_KEYS: readonly RuleKey[] = ["choice", "choiceLogit", "optimum", "nearest", "capacityShare", "plan"];
 
 export async function action({ request }: Route.ActionArgs) {
   if (request.method !== "POST") return methodNotAllowed(["POST"]);
-  await requireApiUser(request);
+  const { user, token } = await requireApiUser(request);
+  if (token) await requireApiAccess(token.organisation);
   const search = new URL(request.url).searchParams;
   const periods = search.get("periods");
   if (periods !== null && periods !== "0" && periods !== "1") return apiError(400, 'periods must be 0 or 1.');
@@ -23,6 +27,13 @@ export async function action({ request }: Route.ActionArgs) {
   const unknown = rules?.filter((rule) => !RULE_KEYS.includes(rule as RuleKey)) ?? [];
   if (unknown.length > 0) return apiError(400, `Unknown rule ${unknown.join(", ")}: use ${RULE_KEYS.join(", ")}.`);
   const body = await readJsonBody(request);
+  const size = scenarioSize(body);
+  if (token) {
+    await requireApiPlan(token.organisation, ["runs", "problemSize"], size);
+  } else {
+    const refusal = await planRefusalForPerson(user.id, ["runs", "problemSize"], size);
+    if (refusal) return apiError(403, refusal.message);
+  }
   const outcome = solveDocument(body, { periods: periods === null ? undefined : periods === "1", rules: rules as RuleKey[] | undefined });
   if (!outcome.ok) return apiError(outcome.status, outcome.error, outcome.issues);
   return Response.json(outcome.result, { headers: { "X-Solve-Milliseconds": outcome.durationMs.toFixed(1) } });

@@ -10,6 +10,7 @@ import { requireRole } from "~/auth/guards.server";
 import { notFound } from "~/auth/http-errors";
 import { getDb } from "~/db/client.server";
 import { ScenarioInputError } from "~/engine/problem";
+import { planRefusal, scenarioSize } from "~/models/plan-gates.server";
 import { setAssumptions, type ScenarioDoc } from "~/models/scenario-document";
 import { replaceScenarioInputs, updateScenarioDetails } from "~/models/scenario-edits.server";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
@@ -81,6 +82,8 @@ export async function action({ request, params }: Route.ActionArgs) {
     choiceModel: value.choiceKind === "logit" ? { kind: "logit", scale: value.logitScale as number } : { kind: "wardrop" },
     plan,
   });
+  const refusal = await planRefusal(organisation, ["problemSize"], scenarioSize(next));
+  if (refusal) return data({ fieldErrors: {}, formError: refusal.message }, { status: 403 });
   try {
     await replaceScenarioInputs(organisation.id, id, next, { userId: user.id, reason: "settings" });
   } catch (error) {

@@ -10,6 +10,7 @@ import { requireMembership, requireRole } from "~/auth/guards.server";
 import { getDb } from "~/db/client.server";
 import { ScenarioInputError } from "~/engine/problem";
 import { recordAudit } from "~/models/audit.server";
+import { planRefusal, scenarioSize, type PlanRefusal } from "~/models/plan-gates.server";
 import { CSV_FILE_KINDS, CSV_FILE_NAMES, importCsvFiles, MAX_CSV_BYTES, type CsvFiles, type CsvRowError } from "~/models/csv-import";
 import { archiveScenario, duplicateScenario, importScenario, listScenarios, renameScenario } from "~/models/scenarios.server";
 import { ImportErrorList } from "~/components/import-errors";
@@ -31,10 +32,17 @@ interface ActionData {
   target: number | null;
   message: string | null;
   errors: CsvRowError[];
+  /** True when the message is a refusal (a plan limit): shown as an alert. */
+  refused: boolean;
 }
 
 function reply(body: Partial<ActionData>, status = 200) {
-  return data<ActionData>({ intent: null, target: null, message: null, errors: [], ...body }, { status });
+  return data<ActionData>({ intent: null, target: null, message: null, errors: [], refused: false, ...body }, { status });
+}
+
+/** A plan limit refused the action: nothing was stored; the message names the limit. */
+function refuse(intent: string, refusal: PlanRefusal) {
+  return reply({ intent, message: refusal.message, refused: true }, 403);
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
@@ -71,6 +79,8 @@ export async function action({ request, params }: Route.ActionArgs) {
     case "create": {
       const read = await readUpload(form);
       if ("errors" in read) return reply({ intent: "create", message: "Nothing was stored: fix the rows below and upload again.", errors: read.errors }, 400);
+      const refusal = await planRefusal(organisation, ["scenarios", "problemSize"], scenarioSize(read.document));
+      if (refusal) return refuse("create", refusal);
       try {
         const id = await importScenario(db, organisation.id, read.document, { name: input.name, createdBy: user.id });
         await recordAudit(organisation.id, user.id, "scenario.created", `scenario:${id}`, { via: read.via });
@@ -88,6 +98,8 @@ export async function action({ request, params }: Route.ActionArgs) {
       }
     }
     case "duplicate": {
+      const refusal = await planRefusal(organisation, ["scenarios"]);
+      if (refusal) return refuse("duplicate", refusal);
       const id = await duplicateScenario(db, organisation.id, input.scenarioId, { name: input.name, createdBy: user.id });
       if (id === null) throw new Response("No such scenario in this organisation.", { status: 404 });
       await recordAudit(organisation.id, user.id, "scenario.duplicated", `scenario:${id}`, { from: input.scenarioId });
@@ -99,6 +111,9 @@ export async function action({ request, params }: Route.ActionArgs) {
     }
     case "archive":
     case "restore": {
+      // Restoring counts against the scenario limit again; archiving never does.
+      const refusal = input.intent === "restore" ? await planRefusal(organisation, ["scenarios"]) : null;
+      if (refusal) return refuse("restore", refusal);
       if (!(await archiveScenario(db, organisation.id, input.scenarioId, input.intent === "archive"))) {
         throw new Response("No such scenario in this organisation.", { status: 404 });
       }
@@ -163,7 +178,7 @@ export default function ScenariosPage({ loaderData }: Route.ComponentProps) {
       </header>
 
       {actionData?.message && (
-        <p role={actionData.errors.length > 0 ? "alert" : "status"} className={`rounded border px-3 py-2 text-sm ${actionData.errors.length > 0 ? "border-bad bg-warn-soft" : "border-good bg-accent-soft"}`}>
+        <p role={actionData.errors.length > 0 || actionData.refused ? "alert" : "status"} className={`rounded border px-3 py-2 text-sm ${actionData.errors.length > 0 || actionData.refused ? "border-bad bg-warn-soft" : "border-good bg-accent-soft"}`}>
           {actionData.message}
           {actionData.intent === "create" && actionData.target && (
             <>

@@ -22,6 +22,7 @@ import { PLANNING_CAUTIONS } from "~/components/planning-cautions";
 import { useTestDatabase } from "../support/database";
 import { useAuthEnvironment } from "../auth/support/environment";
 import { createTenant, type Tenant } from "../auth/support/fixtures";
+import { setSubscription } from "../support/plans";
 import { call, smallScenario } from "./support/fixtures";
 
 const database = useTestDatabase();
@@ -35,6 +36,9 @@ let betaScenario: number;
 beforeAll(async () => {
   alpha = await createTenant("Alpha");
   beta = await createTenant("Beta");
+  // Personal tokens need a plan with API access (tests/billing/limits-wiring.test.ts covers the refusal).
+  await setSubscription(alpha.organisation.id, "region");
+  await setSubscription(beta.organisation.id, "region");
   alphaScenario = await importScenario(database.db, alpha.organisation.id, smallScenario("Alpha baseline"));
   betaScenario = await importScenario(database.db, beta.organisation.id, smallScenario("Beta baseline"));
 });
