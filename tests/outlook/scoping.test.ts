@@ -19,6 +19,7 @@ import * as sitePage from "~/routes/o.$org.outlook.sites.$siteId";
 import { useAuthEnvironment } from "../auth/support/environment";
 import { createTenant, type Tenant } from "../auth/support/fixtures";
 import { useTestDatabase } from "../support/database";
+import { setSubscription } from "../support/plans";
 import { call } from "../workspace/support/fixtures";
 import { seasonalScenario, storedRun } from "./support";
 
@@ -34,6 +35,8 @@ beforeAll(async () => {
   // Alpha's provider manager looks after ZZS2 only.
   alpha = await createTenant("Alpha", ["ZZS2"]);
   beta = await createTenant("Beta");
+  // Personal API tokens need a plan with API access.
+  await setSubscription(alpha.organisation.id, "region");
   ({ runId } = await storedRun(database.db, alpha.organisation.id, alpha.members.planner.user.id, seasonalScenario("Alpha seasons")));
   ({ runId: betaRunId } = await storedRun(database.db, beta.organisation.id, beta.members.planner.user.id, seasonalScenario("Beta seasons")));
 });
