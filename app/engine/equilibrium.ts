@@ -5,14 +5,14 @@
  * patients who balk are exactly those whose reservation cost is below that cost.
  *
  * Method (README.md has the full story): Newton on the m site costs for the logit model,
- * with θ raised by decades from a smooth start (continuation), then the exact θ = ∞ finish on the
+ * with θ raised threefold per stage from a smooth start (continuation), then the exact θ = ∞ finish on the
  * tied structure (`wardrop-finish.ts`). The same driver solves the optimum on marginal-cost
  * curves (`optimum.ts`). Flows among tied options are the maximum-entropy split.
  */
 import type { Allocation, LineProblem, SolveDiagnostics } from "./problem";
 import { NoSteadyStateError } from "./problem";
 import { relativeGap } from "./allocation-cost";
-import { type CostView, LogitWorkspace, costScaleOf, evaluateLogit, initialTheta, logitContinuation, logitNewton } from "./logit-newton";
+import { type CostView, LogitWorkspace, THETA_FACTOR, costScaleOf, evaluateLogit, initialTheta, logitContinuation, logitNewton } from "./logit-newton";
 import { type SiteCostCurve, SiteInverse, waitCurve } from "./site-cost-curve";
 import { wardropFinish } from "./wardrop-finish";
 
@@ -22,6 +22,13 @@ import { wardropFinish } from "./wardrop-finish";
  * is still cheap and well conditioned.
  */
 const FINISH_SCALE = 1e5;
+
+/**
+ * Σ_j |R_j| (as a share of demand) to which the logit solution at θ_finish is solved before the
+ * finish: the finish reads only which options are tied and a first guess of its unknowns from
+ * it, and re-solves exactly, so a tight logit solve there is wasted work.
+ */
+const HANDOVER_TOLERANCE = 1e-4;
 
 export interface SolveOptions {
   /** Per-site cost (weeks) added to every option at the site; never counted in total cost. Default none. */
@@ -124,7 +131,7 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
     return finishOutcome(problem, curves, view, new Float64Array(n * m), new Float64Array(n), settings, 0, warnings);
   }
 
-  // Continuation: θ up by decades from a smooth start to θ_finish = FINISH_SCALE / cost scale.
+  // Continuation: θ up by factors of THETA_FACTOR from a smooth start to θ_finish = FINISH_SCALE / cost scale.
   const startTheta = initialTheta(view, w);
   let budget = settings.maxIterations;
   // The first stage's solution tells the cost scale that θ_finish is measured against.
@@ -132,9 +139,9 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   iterations += first.iterations;
   budget -= first.iterations;
   let finishTheta = Math.max(startTheta, FINISH_SCALE / costScaleOf(view, workspace));
-  let fromTheta = Math.min(startTheta * 10, finishTheta);
+  let fromTheta = Math.min(startTheta * THETA_FACTOR, finishTheta);
   for (let attempt = 0; attempt < 3; attempt++) {
-    const path = logitContinuation(view, w, workspace, fromTheta, finishTheta, 1e-9 * view.totalDemand, Math.max(budget, 1));
+    const path = logitContinuation(view, w, workspace, fromTheta, finishTheta, HANDOVER_TOLERANCE * view.totalDemand, Math.max(budget, 1));
     iterations += path.iterations;
     budget -= path.iterations;
     const theta = path.theta;

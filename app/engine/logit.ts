@@ -11,7 +11,7 @@
  * Sources: Daganzo & Sheffi (1977) "On stochastic models of traffic assignment",
  * *Transportation Science* 11(3); Fisk (1980), *Transportation Research B* 14(3).
  *
- * Method: Newton on the site costs (`logit-newton.ts`), θ raised by decades from a smooth start
+ * Method: Newton on the site costs (`logit-newton.ts`), θ raised threefold per stage from a smooth start
  * up to the requested θ.
  *
  * Relative gap for this rule: the Wardrop gap of a logit equilibrium is positive by design, so
