@@ -13,10 +13,10 @@ import { mkdtempSync, rmSync, writeFileSync } from "node:fs";
 import os from "node:os";
 import path from "node:path";
 import type { Browser, Page } from "playwright-core";
+import type { Role } from "../../app/db/schema";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { DEMO_PEOPLE } from "../../seed/people";
 import { PLANNING_CAUTIONS } from "../../app/components/planning-cautions";
-import { launchBrowser, startApp, type RunningApp } from "../browser/harness";
+import { launchBrowser, signInAs as signInWith, startApp, type RunningApp } from "../browser/harness";
 
 let app: RunningApp;
 let browser: Browser;
@@ -35,15 +35,7 @@ afterAll(async () => {
   rmSync(scratch, { recursive: true, force: true });
 });
 
-async function signInAs(page: Page, role: string) {
-  const person = DEMO_PEOPLE.find((candidate) => candidate.role === role && candidate.organisation === ORG);
-  if (!person) throw new Error(`No demo ${role} of ${ORG}`);
-  await page.goto(`${app.url}/sign-in`);
-  await page.getByRole("button", { name: /sign in/i }).first().click();
-  await page.locator("button.person", { hasText: person.name }).click();
-  await page.waitForURL(new RegExp(`/o/${ORG}`));
-  return person;
-}
+const signInAs = (page: Page, role: Role) => signInWith(page, app, role, ORG);
 
 /** Text of a PDF by pdftotext, with the layout kept so that table rows stay on one line. */
 function pdfText(bytes: Buffer): string {
