@@ -13,6 +13,7 @@ import { getDb } from "~/db/client.server";
 import { runs, scenarios, users, type Role } from "~/db/schema";
 import type { ScenarioResult } from "~/engine/solve-scenario";
 import { recordAudit } from "./audit.server";
+import type { WholeRunAccess } from "./runs.server";
 import type { Membership } from "./organisations.server";
 import type { ScenarioDocument } from "./scenarios.server";
 
@@ -21,6 +22,12 @@ export const PUBLISHER_ROLES: readonly Role[] = ["administrator", "planner"];
 
 export function seesUnpublished(role: Role): boolean {
   return PUBLISHER_ROLES.includes(role);
+}
+
+/** Whole runs a role may open through the workspace and the runs API (see runs.server.ts). */
+export function wholeRunAccess(role: Role): WholeRunAccess {
+  if (role === "provider_manager") return "none";
+  return role === "access_officer" ? "published" : "all";
 }
 
 /** The site codes a member may see, or null for every site. */

@@ -7,7 +7,7 @@
  * The engine runs outside any transaction: PGlite has one connection, and a transaction would hold
  * it for the whole solve.
  */
-import { and, desc, eq, sql } from "drizzle-orm";
+import { and, desc, eq, isNotNull, sql, type SQL } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { runs, users } from "~/db/schema";
 import { NoSteadyStateError, ScenarioInputError, type RuleKey } from "~/engine/problem";
@@ -17,6 +17,18 @@ import { recordAudit } from "./audit.server";
 import { exportScenario, type ScenarioDocument } from "./scenarios.server";
 
 export type RunRecord = typeof runs.$inferSelect;
+
+/**
+ * Which whole runs (every site and practice) a member may open: planners, administrators and
+ * readers all of them; access officers only published runs; provider managers none — they read
+ * their own sites' figures through the outlook pages (app/models/publishing.server.ts).
+ */
+export type WholeRunAccess = "all" | "published" | "none";
+
+function accessCondition(access: WholeRunAccess): SQL | undefined {
+  if (access === "none") return sql`false`;
+  return access === "published" ? isNotNull(runs.publishedAt) : undefined;
+}
 
 /** A run without its (large) input and result, for lists. */
 export interface RunSummary {
@@ -130,7 +142,7 @@ export async function createRun(
 }
 
 /** A scenario's runs, newest first, without their payloads. */
-export async function listRuns(organisationId: number, scenarioId: number): Promise<RunSummary[]> {
+export async function listRuns(organisationId: number, scenarioId: number, access: WholeRunAccess = "all"): Promise<RunSummary[]> {
   const db = await getDb();
   const rows = await db
     .select({
@@ -147,7 +159,7 @@ export async function listRuns(organisationId: number, scenarioId: number): Prom
     })
     .from(runs)
     .leftJoin(users, eq(users.id, runs.createdBy))
-    .where(and(eq(runs.organisationId, organisationId), eq(runs.scenarioId, scenarioId)))
+    .where(and(eq(runs.organisationId, organisationId), eq(runs.scenarioId, scenarioId), accessCondition(access)))
     .orderBy(desc(runs.createdAt), desc(runs.id));
   return rows.map((row) => summary(row, row.priceOfAnarchy, row.createdByLogin));
 }
@@ -161,7 +173,11 @@ export interface RunDetail extends RunSummary {
  * One run with its input snapshot and result; null when not in this organisation. With
  * `periods: false` the result's period-by-period part (most of its size) is left in the database.
  */
-export async function getRun(organisationId: number, runId: number, options: { periods?: boolean } = {}): Promise<RunDetail | null> {
+export async function getRun(
+  organisationId: number,
+  runId: number,
+  options: { periods?: boolean; access?: WholeRunAccess } = {},
+): Promise<RunDetail | null> {
   if (!Number.isSafeInteger(runId)) return null;
   const db = await getDb();
   const [found] = await db
@@ -181,7 +197,7 @@ export async function getRun(organisationId: number, runId: number, options: { p
     })
     .from(runs)
     .leftJoin(users, eq(users.id, runs.createdBy))
-    .where(and(eq(runs.id, runId), eq(runs.organisationId, organisationId)));
+    .where(and(eq(runs.id, runId), eq(runs.organisationId, organisationId), accessCondition(options.access ?? "all")));
   if (!found) return null;
   const row = found.run;
   const result = row.result as unknown as ScenarioResult;

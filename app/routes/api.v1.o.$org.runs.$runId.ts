@@ -7,14 +7,15 @@ import { apiError, requireApiMember } from "~/auth/api-guards.server";
 import { recordAudit } from "~/models/audit.server";
 import { resultToCsvFiles } from "~/models/csv-export";
 import type { ResultDocument } from "~/models/result-document";
+import { wholeRunAccess } from "~/models/publishing.server";
 import { getRun } from "~/models/runs.server";
 import { idParam } from "./api-support.server";
 import type { Route } from "./+types/api.v1.o.$org.runs.$runId";
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const { organisation, user } = await requireApiMember(request, params.org);
+  const { organisation, user, membership } = await requireApiMember(request, params.org);
   const runId = idParam(params.runId, "run");
-  const run = await getRun(organisation.id, runId);
+  const run = await getRun(organisation.id, runId, { access: wholeRunAccess(membership.role) });
   if (!run) return apiError(404, "No such run in this organisation.");
   const search = new URL(request.url).searchParams;
   if (search.get("format") !== "csv") return Response.json({ run });

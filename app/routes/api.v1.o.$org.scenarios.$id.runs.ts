@@ -7,6 +7,7 @@
 import { z } from "zod";
 import { apiError, EDITOR_ROLES, requireApiMember } from "~/auth/api-guards.server";
 import { getDb } from "~/db/client.server";
+import { wholeRunAccess } from "~/models/publishing.server";
 import { createRun, listRuns } from "~/models/runs.server";
 import { scenarioSize } from "~/models/plan-gates.server";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
@@ -22,10 +23,10 @@ const runBodySchema = z.object({
 });
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const { organisation } = await requireApiMember(request, params.org);
+  const { organisation, membership } = await requireApiMember(request, params.org);
   const id = idParam(params.id, "scenario");
   if (!(await getScenario(await getDb(), organisation.id, id))) return apiError(404, "No such scenario in this organisation.");
-  return Response.json({ runs: await listRuns(organisation.id, id) });
+  return Response.json({ runs: await listRuns(organisation.id, id, wholeRunAccess(membership.role)) });
 }
 
 export async function action({ request, params }: Route.ActionArgs) {

@@ -18,6 +18,7 @@ import { RegionMap, type MapFlow, type MapPractice, type MapSite, type PracticeS
 import { CSV_FILE_NAMES } from "~/models/csv-import";
 import { getRegionMap } from "~/models/region-maps.server";
 import { RULE_LABELS, rulesIn, slimResult, type ResultDocument } from "~/models/result-document";
+import { wholeRunAccess } from "~/models/publishing.server";
 import { getRun, listRuns } from "~/models/runs.server";
 import { addSite, moveSite, practiceDemand, removeSite, type ScenarioDoc } from "~/models/scenario-document";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
@@ -32,13 +33,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const { organisation, membership } = await requireMembership(request, params.org);
   const id = /^\d+$/.test(params.id) ? Number(params.id) : Number.NaN;
   const db = await getDb();
+  const access = wholeRunAccess(membership.role);
   const scenario = await getScenario(db, organisation.id, id);
   if (!scenario) throw notFound();
-  const [document, runs, region] = await Promise.all([exportScenario(db, organisation.id, id), listRuns(organisation.id, id), getRegionMap(db, organisation.id)]);
+  const [document, runs, region] = await Promise.all([exportScenario(db, organisation.id, id), listRuns(organisation.id, id, access), getRegionMap(db, organisation.id)]);
   const runParam = new URL(request.url).searchParams.get("run");
   const selectedId = runParam && /^\d+$/.test(runParam) ? Number(runParam) : runs[0]?.id;
   // The page compares rules on the stationary result; the period-by-period outlook is another screen.
-  const run = selectedId ? await getRun(organisation.id, selectedId, { periods: false }) : null;
+  const run = selectedId ? await getRun(organisation.id, selectedId, { periods: false, access }) : null;
   if (runParam && (!run || run.scenarioId !== id)) throw notFound("There is no such run of this scenario.");
   return {
     organisation: { slug: organisation.slug, name: organisation.name },
