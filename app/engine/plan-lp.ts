@@ -68,6 +68,8 @@ export interface PlanLpResult {
   rounds: number;
   variables: number;
   converged: boolean;
+  /** Refinement stopped because the next LP would exceed `variableLimit` (not an infeasibility). */
+  stoppedAtVariableLimit: boolean;
   warnings: string[];
 }
 
@@ -187,11 +189,13 @@ export function solvePlanLp(problem: LineProblem, bounds: PlanBounds, options: P
   let lowerBound = -Infinity;
   let rounds = 0;
   let variables = 0;
+  let stoppedAtVariableLimit = false;
   for (; rounds < maxRounds; rounds++) {
     const model = buildModel(problem, bounds, siteGrid, balkGrid, hardTop, siteToll, "chord");
     variables = Object.keys(model.variables).length;
     if (variables > variableLimit) {
       warnings.push(`plan LP: refinement stopped at ${variables} variables (limit ${variableLimit}).`);
+      stoppedAtVariableLimit = true;
       break;
     }
     const upper = readSolution(problem, solver.Solve(model) as Solution);
@@ -220,6 +224,7 @@ export function solvePlanLp(problem: LineProblem, bounds: PlanBounds, options: P
         rounds: rounds + 1,
         variables,
         converged: false,
+        stoppedAtVariableLimit: false,
         warnings,
       };
     }
@@ -248,8 +253,9 @@ export function solvePlanLp(problem: LineProblem, bounds: PlanBounds, options: P
       insertPoint(points, lower.balked[i]);
     }
   }
-  if (best === null) return emptyResult(problem, siteGrid, balkGrid, rounds, variables, warnings);
+  if (best === null) return { ...emptyResult(problem, siteGrid, balkGrid, rounds, variables, warnings), stoppedAtVariableLimit };
   best.rounds = rounds;
+  best.stoppedAtVariableLimit = stoppedAtVariableLimit;
   best.warnings.push(`plan LP: relative gap ${best.relativeGap.toExponential(2)} above the tolerance ${tolerance} after ${rounds} rounds.`);
   return best;
 }
@@ -315,6 +321,7 @@ function emptyResult(
     rounds,
     variables,
     converged: false,
+    stoppedAtVariableLimit: false,
     warnings,
   };
 }

@@ -12,8 +12,10 @@
  *
  * Two methods, one answer:
  *  - "lp": javascript-lp-solver on a piecewise-linear cost with adaptive breakpoints and a
- *    certified gap (`plan-lp.ts`), used while the LP is small (default: an expected ≤ 1,000
- *    variables, about 15 practices × 5 sites with spread outside options);
+ *    certified gap (`plan-lp.ts`), used on request (`method: "lp"`) or, with "auto", while
+ *    the LP is expected to stay within 1,000 variables (about 15 practices × 5 sites with spread
+ *    outside options). If refinement reaches the LP's size cap before its gap is certified, the
+ *    dual method answers instead, with a warning — never an uncertified (NaN) gap;
  *  - "dual": Lagrangian relaxation of the site volume bounds. Each bound gets a multiplier τ_j
  *    (≥ 0 for a maximum, ≤ 0 for a minimum) charged as a per-referral toll; the relaxed problem is
  *    the unconstrained optimum with tolls (`solveOptimum`, any size). The tolls are updated until
@@ -52,7 +54,11 @@ export interface PlanOptions {
   urgentInflow?: Float64Array;
   /** Capacity per site before urgent work (referrals/week); default capacity + urgentInflow. */
   fullCapacity?: Float64Array;
-  /** "auto" (default): "lp" while the LP is expected to stay within `lpVariableLimit` variables, else "dual". */
+  /**
+   * "auto" (default): "lp" while the LP is expected to stay within `lpVariableLimit` variables,
+   * else "dual". The product's solve path (`solve-scenario.ts`) asks for "dual": exact at any
+   * size and fast; the tests run both and compare.
+   */
   method?: "auto" | "lp" | "dual";
   /**
    * Default 1,000. javascript-lp-solver is a dense simplex: about 0.1 s per solve at 500
@@ -60,6 +66,8 @@ export interface PlanOptions {
    * dual method (exact, and faster) is used. The LP itself refines up to 3,000 variables.
    */
   lpVariableLimit?: number;
+  /** Largest LP the LP method's refinement builds (variables). Default 3,000; beyond it the dual method answers. */
+  lpRefinementLimit?: number;
   /** Target certified relative gap of the LP method. Default 1e-7. */
   tolerance?: number;
   /** Dual method: largest bound violation, as a share of the site's capacity (at least 1/week). Default 1e-9. */
@@ -68,6 +76,11 @@ export interface PlanOptions {
   maxIterations?: number;
   /** The inner solver of the dual method. Default: the tolled optimum of `optimum.ts`. */
   tolledOptimum?: TolledOptimumSolver;
+  /**
+   * Dual method: multipliers to start from (e.g. the previous period's `siteToll`, or the last
+   * what-if's), one per site; projected onto each bound's sign. Default all 0 (the optimum).
+   */
+  warmStartTolls?: Float64Array;
 }
 
 export interface PlanSolution {
@@ -225,9 +238,20 @@ export function solvePlan(problem: LineProblem, options: PlanOptions = {}): Plan
   if (infeasibilities.length > 0) return infeasible(limited, bounds, method, infeasibilities, 0);
 
   if (useLp) {
-    const result = solvePlanLp(limited, bounds, { tolerance: settings.tolerance });
-    if (!result.feasible) {
+    const result = solvePlanLp(limited, bounds, {
+      tolerance: settings.tolerance,
+      ...(settings.lpRefinementLimit !== undefined ? { variableLimit: settings.lpRefinementLimit } : {}),
+    });
+    if (!result.feasible && !result.stoppedAtVariableLimit) {
       return infeasible(limited, bounds, method, [jointInfeasibility(limited, bounds)], result.rounds);
+    }
+    if (!result.converged || !Number.isFinite(result.relativeGap)) {
+      // The LP ran out of room (its size cap or rounds) before certifying its gap: the dual
+      // method answers and the warning says why.
+      const dual = solvePlanDual(limited, bounds, settings);
+      const reason = result.warnings.length > 0 ? result.warnings.join(" ") : `relative gap ${result.relativeGap} not certified.`;
+      dual.diagnostics.warnings.unshift(`plan: the LP method stopped early (${reason}); the dual method answered instead.`);
+      return dual;
     }
     return finish(limited, bounds, method, { flow: result.flow, balked: result.balked }, null, {
       converged: result.converged,
@@ -352,7 +376,13 @@ function solvePlanDual(
     });
     return { allocation: { flow, balked }, diagnostics: outcome.diagnostics };
   };
-  const toll = new Float64Array(m);
+  // A warm start keeps only multipliers whose bound exists, with the bound's sign.
+  const toll = Float64Array.from({ length: m }, (_, j) => {
+    const start = settings.warmStartTolls?.[j] ?? 0;
+    if (start > 0 && Number.isFinite(bounds.upper[j])) return start;
+    if (start < 0 && bounds.lower[j] > 0) return start;
+    return 0;
+  });
   const previousToll = new Float64Array(m);
   const previousInflow = new Float64Array(m).fill(NaN);
   const inflow = new Float64Array(m);

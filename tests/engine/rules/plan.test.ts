@@ -280,6 +280,32 @@ describe("plan properties on random instances", () => {
     });
   }
 
+  it("an LP stopped by its size cap hands over to the dual method with a warning, never a NaN gap", () => {
+    // The same plan twice: once by the dual method, once by an LP allowed too few variables to
+    // certify its gap. The second must say so and answer with the dual method's allocation.
+    const problem = randomProblem(21, 8, 3, { spread: true });
+    const dual = solvePlan(problem, { method: "dual", maxUtilisation: 0.8 });
+    const capped = solvePlan(problem, { method: "lp", maxUtilisation: 0.8, lpRefinementLimit: 60 });
+    expect(dual.status).toBe("solved");
+    expect(capped.method).toBe("dual");
+    expect(capped.status).toBe("solved");
+    expect(Number.isFinite(capped.diagnostics.relativeGap)).toBe(true);
+    expect(capped.diagnostics.warnings[0]).toMatch(/LP method stopped early \(plan LP: refinement stopped at \d+ variables \(limit 60\)\.\); the dual method answered instead/);
+    expect(capped.totalCost).toBe(dual.totalCost);
+  });
+
+  it("the dual method from warm-start tolls (the last answer's) reaches the same plan in fewer toll updates", () => {
+    const problem = randomProblem(22, 12, 4, { spread: true });
+    const cold = solvePlan(problem, { method: "dual", maxUtilisation: 0.3 });
+    expect(cold.status).toBe("solved");
+    expect(cold.siteToll?.some((toll) => toll > 0)).toBe(true);
+    const warm = solvePlan(problem, { method: "dual", maxUtilisation: 0.3, warmStartTolls: cold.siteToll ?? undefined });
+    expect(warm.status).toBe("solved");
+    expect(warm.diagnostics.iterations).toBeLessThan(cold.diagnostics.iterations);
+    expect(warm.totalCost).toBeCloseTo(cold.totalCost, 8);
+    for (let j = 0; j < problem.m; j++) expect(warm.siteInflow[j]).toBeCloseTo(cold.siteInflow[j], 6);
+  });
+
   it("auto uses the LP for a small plan and the dual method for a larger one", () => {
     expect(solvePlan(randomProblem(21, 4, 2, { spread: true })).method).toBe("lp");
     const larger = solvePlan(randomProblem(21, 40, 7, { spread: true }), { maxUtilisation: 0.8 });
