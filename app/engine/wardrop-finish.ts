@@ -334,8 +334,17 @@ function solveGroup(
 ): { ok: boolean; iterations: number } {
   const { sites, sources, delta, grounded } = group;
   const size = sites.length;
+  // Each source's tied sites as positions in the group, flattened (built once per group solve).
   const local = new Map<number, number>();
   sites.forEach((j, k) => local.set(j, k));
+  const memberStart = new Int32Array(sources.length + 1);
+  for (let s = 0; s < sources.length; s++) memberStart[s + 1] = memberStart[s] + tie[sources[s]].sites.length;
+  const member = new Int32Array(memberStart[sources.length]);
+  for (let s = 0; s < sources.length; s++) {
+    const tied = tie[sources[s]].sites;
+    for (let a = 0; a < tied.length; a++) member[memberStart[s] + a] = local.get(tied[a]) as number;
+  }
+  const share = new Float64Array(Math.max(size, 1));
   // Unknowns: grounded → η of every site; otherwise L then η of sites 1..size−1 (η of site 0 is 0).
   const unknowns = size;
   const etaIndex = (k: number): number => (grounded ? k : k === 0 ? -1 : k);
@@ -359,26 +368,32 @@ function solveGroup(
       residual[k] -= x;
       if (withJacobian && !grounded) jacobian[k * unknowns] -= view.inverses[j].loadSlope(w, x);
     }
-    for (const i of sources) {
+    for (let s = 0; s < sources.length; s++) {
+      const i = sources[s];
       const t = tie[i];
-      const count = t.sites.length;
+      const first = memberStart[s];
+      const count = memberStart[s + 1] - first;
       let smallest = t.outsideTie ? 0 : Infinity;
-      for (const j of t.sites) smallest = Math.min(smallest, eta[j]);
+      for (let a = 0; a < count; a++) smallest = Math.min(smallest, eta[sites[member[first + a]]]);
       let sum = t.outsideTie ? Math.exp(smallest) : 0;
-      for (const j of t.sites) sum += Math.exp(-(eta[j] - smallest));
-      const { served, slope } = t.outsideTie ? { served: view.demand[i], slope: 0 } : servedAt(view, i, group.level + sourceOffset[i]);
       for (let a = 0; a < count; a++) {
-        const ka = local.get(t.sites[a]) as number;
-        const pa = Math.exp(-(eta[t.sites[a]] - smallest)) / sum;
+        const e = Math.exp(-(eta[sites[member[first + a]]] - smallest));
+        share[a] = e;
+        sum += e;
+      }
+      const { served, slope } = t.outsideTie ? { served: view.demand[i], slope: 0 } : servedAt(view, i, group.level + sourceOffset[i]);
+      for (let a = 0; a < count; a++) share[a] /= sum;
+      for (let a = 0; a < count; a++) {
+        const ka = member[first + a];
+        const pa = share[a];
         residual[ka] += served * pa;
         if (!withJacobian) continue;
         if (!grounded) jacobian[ka * unknowns] += slope * pa;
+        const row = ka * unknowns;
         for (let b = 0; b < count; b++) {
-          const kb = local.get(t.sites[b]) as number;
-          const column = etaIndex(kb);
+          const column = etaIndex(member[first + b]);
           if (column < 0) continue;
-          const pb = Math.exp(-(eta[t.sites[b]] - smallest)) / sum;
-          jacobian[ka * unknowns + column] -= served * pa * ((a === b ? 1 : 0) - pb);
+          jacobian[row + column] -= served * pa * ((a === b ? 1 : 0) - share[b]);
         }
       }
     }
