@@ -24,18 +24,29 @@ import { wardropFinish } from "./wardrop-finish";
 const FINISH_SCALE = 1e5;
 
 /**
- * Σ_j |R_j| (as a share of demand) to which the logit solution at θ_finish is solved before the
- * finish: the finish reads only which options are tied and a first guess of its unknowns from
- * it, and re-solves exactly, so a tight logit solve there is wasted work.
+ * Hand-overs to the finish, tried in turn until one succeeds: θ as a multiple of θ_finish, and
+ * Σ_j |R_j| (as a share of demand) to which the logit model is solved there. The finish reads only
+ * the tied structure and first guesses from the logit solution and re-solves exactly, so a loose
+ * solve usually suffices (a tight one at very large θ took 170 damped Newton steps on a national
+ * scenario); when the structure read off is wrong, the same θ solved tighter, then larger θ, tell
+ * ties apart better.
  */
-const HANDOVER_TOLERANCE = 1e-4;
+const FINISH_ATTEMPTS = [
+  { thetaScale: 1, handover: 1e-3 },
+  { thetaScale: 1, handover: 1e-6 },
+  { thetaScale: 10, handover: 1e-6 },
+  { thetaScale: 100, handover: 1e-9 },
+];
+
+/** Active-set rounds per finish attempt: a right structure settles in ≤ 5; a wrong one only degrades. */
+const FINISH_ROUNDS = 8;
 
 export interface SolveOptions {
   /** Per-site cost (weeks) added to every option at the site; never counted in total cost. Default none. */
   siteToll?: Float64Array;
   /** Target relative gap (PRODUCT.md definition). Default 1e-10. */
   tolerance?: number;
-  /** Cap on Newton iterations over all stages. Default 400. */
+  /** Cap on Newton iterations over all stages and finish attempts. Default 2000. */
   maxIterations?: number;
   /** Site costs to start from (e.g. the previous period's waits). Default: each site's empty wait. */
   warmStartWaits?: Float64Array;
@@ -59,7 +70,7 @@ export function normaliseOptions(options: SolveOptions): NormalisedOptions {
   return {
     siteToll: options.siteToll,
     tolerance: options.tolerance ?? 1e-10,
-    maxIterations: options.maxIterations ?? 400,
+    maxIterations: options.maxIterations ?? 2000,
     warmStartWaits: options.warmStartWaits,
   };
 }
@@ -138,28 +149,30 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   const first = logitNewton(view, startTheta, w, workspace, 1e-3 * view.totalDemand, budget);
   iterations += first.iterations;
   budget -= first.iterations;
-  let finishTheta = Math.max(startTheta, FINISH_SCALE / costScaleOf(view, workspace));
-  let fromTheta = Math.min(startTheta * THETA_FACTOR, finishTheta);
-  for (let attempt = 0; attempt < 3; attempt++) {
-    const path = logitContinuation(view, w, workspace, fromTheta, finishTheta, HANDOVER_TOLERANCE * view.totalDemand, Math.max(budget, 1));
+  const baseFinishTheta = Math.max(startTheta, FINISH_SCALE / costScaleOf(view, workspace));
+  let fromTheta = Math.min(startTheta * THETA_FACTOR, baseFinishTheta);
+  for (let attempt = 0; attempt < FINISH_ATTEMPTS.length; attempt++) {
+    const last = attempt === FINISH_ATTEMPTS.length - 1;
+    const finishTheta = baseFinishTheta * FINISH_ATTEMPTS[attempt].thetaScale;
+    const tolerance = FINISH_ATTEMPTS[attempt].handover * view.totalDemand;
+    const path = logitContinuation(view, w, workspace, fromTheta, finishTheta, tolerance, Math.max(budget, 1));
     iterations += path.iterations;
     budget -= path.iterations;
     const theta = path.theta;
-    const finish = wardropFinish(view, w, theta, Math.max(budget, 1));
+    const finish = wardropFinish(view, w, theta, Math.max(budget, 1), FINISH_ROUNDS);
     iterations += finish.iterations;
     budget -= finish.iterations;
     if (finish.ok) {
       const result = finishOutcome(problem, curves, view, finish.flow, finish.balked, settings, iterations, warnings);
-      if (result.diagnostics.converged || attempt === 2 || budget <= 0) return annotate(result, ruleName);
-    } else if (attempt === 2 || budget <= 0) {
+      if (result.diagnostics.converged || last || budget <= 0) return annotate(result, ruleName);
+    } else if (last || budget <= 0) {
       warnings.push(`${ruleName}: the exact finish failed (${finish.message}); the logit approximation at θ = ${theta.toExponential(2)} is reported.`);
       evaluateLogit(view, theta, w, workspace);
       const { flow, balked } = logitAllocation(view, workspace);
       return annotate(finishOutcome(problem, curves, view, flow, balked, settings, iterations, warnings), ruleName);
     }
-    // Retry from a sharper logit solution.
-    fromTheta = finishTheta * 10;
-    finishTheta *= 100;
+    // Retry from a sharper logit solution (the same θ solved tighter, then larger θ).
+    fromTheta = Math.min(theta * THETA_FACTOR, baseFinishTheta * FINISH_ATTEMPTS[Math.min(attempt + 1, FINISH_ATTEMPTS.length - 1)].thetaScale);
   }
   throw new Error("unreachable");
 }
