@@ -128,7 +128,8 @@ describe("a planner's day in the scenario workspace", () => {
     await page.getByLabel("Import capacities.csv").setInputFiles(csvFile("capacities.csv", capacities));
 
     const errors = page.getByTestId("import-errors");
-    await errors.waitFor({ timeout: 15_000 });
+    // The preview is recomputed as each file arrives; wait for the one that has all three.
+    await errors.getByText(/^1 problem found/).waitFor({ timeout: 15_000 });
     const errorRows = await errors.locator("tbody tr").evaluateAll((trs) => trs.map((tr) => [...tr.querySelectorAll("td")].map((td) => td.textContent?.trim() ?? "")));
     // Data row 2 (0-based) sits on file line 4: the header is line 1.
     expect(errorRows).toHaveLength(1);
