@@ -18,6 +18,7 @@ import { RegionMap } from "~/components/region-map";
 import { RunContext } from "~/components/run-context";
 import type { PracticeBalking } from "~/engine/balking-outlook";
 import { getRegionMap } from "~/models/region-maps.server";
+import { FilterSelect } from "~/components/filter-select";
 import { RULE_LABELS } from "~/models/result-document";
 import { balkingOutlookFor, openOutlookRun, runChoices, runContextOf, sensitivityFor } from "~/models/outlooks.server";
 import { listVisibleRuns } from "~/models/publishing.server";
@@ -114,37 +115,9 @@ export default function BalkingOutlookPage({ loaderData }: Route.ComponentProps)
         </p>
       </header>
       <Form method="get" className="no-print flex flex-wrap items-end gap-4 rounded border border-rule bg-white p-4 text-sm">
-        <label className="flex flex-col">
-          Run
-          <select name="run" defaultValue={view.runId} className="rounded border border-rule px-2 py-1">
-            {runs.map((run) => (
-              <option key={run.id} value={run.id}>
-                {run.label}
-              </option>
-            ))}
-          </select>
-        </label>
-        <label className="flex flex-col">
-          Rule
-          <select name="rule" defaultValue={query.rule} className="rounded border border-rule px-2 py-1">
-            {view.rules.map((rule) => (
-              <option key={rule} value={rule}>
-                {RULE_LABELS[rule] ?? rule}
-              </option>
-            ))}
-          </select>
-        </label>
-        <label className="flex flex-col">
-          Service line
-          <select name="line" defaultValue={query.line ?? ""} className="rounded border border-rule px-2 py-1">
-            <option value="">All lines</option>
-            {view.lines.map((line) => (
-              <option key={line.id} value={line.id}>
-                {line.name}
-              </option>
-            ))}
-          </select>
-        </label>
+        <FilterSelect label="Run" name="run" value={view.runId} options={runs.map((run) => ({ value: run.id, label: run.label }))} />
+        <FilterSelect label="Rule" name="rule" value={query.rule} options={view.rules.map((rule) => ({ value: rule, label: RULE_LABELS[rule] ?? rule }))} />
+        <FilterSelect label="Service line" name="line" value={query.line} allLabel="All lines" options={view.lines.map((line) => ({ value: line.id, label: line.name }))} />
         {view.periods.length > 0 && (
           <label className="flex flex-col">
             Period

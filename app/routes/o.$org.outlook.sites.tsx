@@ -13,6 +13,7 @@ import { formatNumber } from "~/components/data-table";
 import { PlanningCautions } from "~/components/planning-cautions";
 import { RunContext } from "~/components/run-context";
 import { summariseSiteOutlook } from "~/engine/site-outlook";
+import { FilterSelect } from "~/components/filter-select";
 import { RULE_LABELS } from "~/models/result-document";
 import { openOutlookRun, runChoices, runContextOf, siteOutlookFor, visibleSites } from "~/models/outlooks.server";
 import { listVisibleRuns } from "~/models/publishing.server";
@@ -81,37 +82,9 @@ export default function SiteOutlookPage({ loaderData }: Route.ComponentProps) {
       ) : (
         <>
           <Form method="get" className="no-print flex flex-wrap items-end gap-4 rounded border border-rule bg-white p-4 text-sm">
-            <label className="flex flex-col">
-              Run
-              <select name="run" defaultValue={outlook.runId} className="rounded border border-rule px-2 py-1">
-                {runs.map((run) => (
-                  <option key={run.id} value={run.id}>
-                    {run.label}
-                  </option>
-                ))}
-              </select>
-            </label>
-            <label className="flex flex-col">
-              Rule
-              <select name="rule" defaultValue={query.rule} className="rounded border border-rule px-2 py-1">
-                {outlook.rules.map((rule) => (
-                  <option key={rule} value={rule}>
-                    {RULE_LABELS[rule] ?? rule}
-                  </option>
-                ))}
-              </select>
-            </label>
-            <label className="flex flex-col">
-              Service line
-              <select name="line" defaultValue={query.line ?? ""} className="rounded border border-rule px-2 py-1">
-                <option value="">All lines</option>
-                {outlook.lines.map((line) => (
-                  <option key={line.id} value={line.id}>
-                    {line.name}
-                  </option>
-                ))}
-              </select>
-            </label>
+            <FilterSelect label="Run" name="run" value={outlook.runId} options={runs.map((run) => ({ value: run.id, label: run.label }))} />
+            <FilterSelect label="Rule" name="rule" value={query.rule} options={outlook.rules.map((rule) => ({ value: rule, label: RULE_LABELS[rule] ?? rule }))} />
+            <FilterSelect label="Service line" name="line" value={query.line} allLabel="All lines" options={outlook.lines.map((line) => ({ value: line.id, label: line.name }))} />
             <label className="flex flex-col">
               Target share within the standard (%)
               <input name="target" type="number" min="1" max="99.9" step="0.1" defaultValue={query.target} className="w-28 rounded border border-rule px-2 py-1 num" />
