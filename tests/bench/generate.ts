@@ -7,18 +7,11 @@
  */
 import type { LineProblem } from "../../app/engine/problem";
 import { createSiteWaitModel } from "../../app/engine/site-wait";
+import { seededRandom } from "../support/random";
 
-/** Mulberry32: a small, fast, seedable generator (Tommy Ettinger's public-domain design). */
-export function seededRandom(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+export { seededRandom };
+
+
 
 export interface RegionSpec {
   name: string;

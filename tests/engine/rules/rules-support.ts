@@ -5,6 +5,11 @@
  */
 import type { LineProblem, SiteWaitModel } from "~/engine/problem";
 import { createSiteWaitModel } from "~/engine/site-wait";
+import { seededRandom } from "../../support/random";
+
+/** Mulberry32 (tests/support/random.ts), under the name these tests use. */
+export const randomGenerator = seededRandom;
+
 
 /** M/M/c mean queue wait Wq = C(c, a)/(cμ − λ) by Erlang's sum (Erlang 1917; Kleinrock 1975 vol. 1 §3.5, from memory). */
 export function mmcWait(servers: number, rate: number, arrival: number): number {
@@ -72,17 +77,6 @@ export function lineProblem(spec: ProblemSpec): LineProblem {
   };
 }
 
-/** A deterministic pseudo-random generator (mulberry32) so property tests are reproducible. */
-export function randomGenerator(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** A random instance that has a steady state under every rule (outside options everywhere or spare capacity). */
 export function randomProblem(seed: number, n: number, m: number, options: { spread?: boolean; captiveShare?: number } = {}): LineProblem {

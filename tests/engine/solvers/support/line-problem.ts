@@ -1,6 +1,11 @@
 /** Builds `LineProblem`s for solver tests from plain arrays, with the engine's M/M/c site model. */
 import type { LineProblem, SiteWaitModel } from "../../../../app/engine/problem";
 import { createSiteWaitModel } from "../../../../app/engine/site-wait";
+import { seededRandom } from "../../../support/random";
+
+/** Mulberry32 (tests/support/random.ts), under the name these tests use. */
+export const seeded = seededRandom;
+
 
 export interface ProblemSpec {
   demand: number[];
@@ -41,17 +46,6 @@ export function lineProblem(spec: ProblemSpec): LineProblem {
   };
 }
 
-/** Seeded uniform generator (mulberry32) so property tests see the same instances every run. */
-export function seeded(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** Inflow per site of an allocation. */
 export function loadsOf(problem: LineProblem, flow: Float64Array): number[] {
