@@ -27,3 +27,19 @@ export function FilterSelect({
     </label>
   );
 }
+
+/** The target share within the standard and the standard itself, for the teams-needed figure. */
+export function TeamsTargetFields({ target, standard }: { target: string | number; standard: string | number | undefined }) {
+  return (
+    <>
+      <label className="flex flex-col">
+        Target share within the standard (%)
+        <input name="target" type="number" min="1" max="99.9" step="0.1" defaultValue={target} className="w-28 rounded border border-rule px-2 py-1 num" />
+      </label>
+      <label className="flex flex-col">
+        Standard (weeks; blank = the line's own)
+        <input name="standard" type="number" min="0" step="0.5" defaultValue={standard ?? ""} className="w-28 rounded border border-rule px-2 py-1 num" />
+      </label>
+    </>
+  );
+}

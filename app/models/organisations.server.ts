@@ -135,6 +135,16 @@ async function lockAdministrators(tx: Database, organisationId: number): Promise
   return rows.map((row) => row.id);
 }
 
+/** One membership of this organisation, locked for the rest of the transaction (undefined if absent). */
+async function lockMembership(tx: Database, organisationId: number, membershipId: number) {
+  const [membership] = await tx
+    .select()
+    .from(memberships)
+    .where(and(eq(memberships.id, membershipId), eq(memberships.organisationId, organisationId)))
+    .for("update");
+  return membership;
+}
+
 const NOT_A_MEMBER = "There is no such member in this organisation.";
 const LAST_ADMINISTRATOR =
   "This is the organisation's only administrator. Make another member an administrator first.";
@@ -149,11 +159,7 @@ export async function changeMemberRole(
   const db = await getDb();
   return db.transaction(async (tx) => {
     const administrators = await lockAdministrators(tx, organisationId);
-    const [membership] = await tx
-      .select()
-      .from(memberships)
-      .where(and(eq(memberships.id, membershipId), eq(memberships.organisationId, organisationId)))
-      .for("update");
+    const membership = await lockMembership(tx, organisationId, membershipId);
     if (!membership) return { ok: false, reason: "not_found", message: NOT_A_MEMBER } as const;
     if (membership.role === "administrator" && role !== "administrator" && administrators.length <= 1) {
       return { ok: false, reason: "last_administrator", message: LAST_ADMINISTRATOR } as const;
@@ -180,11 +186,7 @@ export async function removeMember(
   const db = await getDb();
   return db.transaction(async (tx) => {
     const administrators = await lockAdministrators(tx, organisationId);
-    const [membership] = await tx
-      .select()
-      .from(memberships)
-      .where(and(eq(memberships.id, membershipId), eq(memberships.organisationId, organisationId)))
-      .for("update");
+    const membership = await lockMembership(tx, organisationId, membershipId);
     if (!membership) return { ok: false, reason: "not_found", message: NOT_A_MEMBER } as const;
     if (membership.role === "administrator" && administrators.length <= 1) {
       return { ok: false, reason: "last_administrator", message: LAST_ADMINISTRATOR } as const;

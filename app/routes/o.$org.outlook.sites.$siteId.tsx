@@ -11,7 +11,7 @@ import { notFound } from "~/auth/http-errors";
 import { formatNumber } from "~/components/data-table";
 import { PeriodInflowChart } from "~/components/outlook-charts";
 import { RunContext } from "~/components/run-context";
-import { FilterSelect } from "~/components/filter-select";
+import { FilterSelect, TeamsTargetFields } from "~/components/filter-select";
 import { RULE_LABELS } from "~/models/result-document";
 import { openOutlookRun, runContextOf, siteOutlookFor } from "~/models/outlooks.server";
 import { readPageQuery, SITE_OUTLOOK_ROLES, siteOutlookQuery } from "./outlook-query.server";
@@ -77,14 +77,7 @@ export default function SiteDetailPage({ loaderData }: Route.ComponentProps) {
       <Form method="get" className="no-print flex flex-wrap items-end gap-4 rounded border border-rule bg-white p-4 text-sm">
         <input type="hidden" name="run" value={runId} />
         <FilterSelect label="Rule" name="rule" value={query.rule} options={rules.map((rule) => ({ value: rule, label: RULE_LABELS[rule] ?? rule }))} />
-        <label className="flex flex-col">
-          Target share within the standard (%)
-          <input name="target" type="number" min="1" max="99.9" step="0.1" defaultValue={query.target} className="w-28 rounded border border-rule px-2 py-1 num" />
-        </label>
-        <label className="flex flex-col">
-          Standard (weeks; blank = the line's own)
-          <input name="standard" type="number" min="0" step="0.5" defaultValue={query.standard ?? ""} className="w-28 rounded border border-rule px-2 py-1 num" />
-        </label>
+        <TeamsTargetFields target={query.target} standard={query.standard} />
         <button type="submit" className="rounded bg-accent px-4 py-1.5 font-semibold text-white">
           Recompute teams needed
         </button>

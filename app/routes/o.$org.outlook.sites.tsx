@@ -13,7 +13,7 @@ import { formatNumber } from "~/components/data-table";
 import { PlanningCautions } from "~/components/planning-cautions";
 import { RunContext } from "~/components/run-context";
 import { summariseSiteOutlook } from "~/engine/site-outlook";
-import { FilterSelect } from "~/components/filter-select";
+import { FilterSelect, TeamsTargetFields } from "~/components/filter-select";
 import { RULE_LABELS } from "~/models/result-document";
 import { openOutlookRun, runChoices, runContextOf, siteOutlookFor, visibleSites } from "~/models/outlooks.server";
 import { listVisibleRuns } from "~/models/publishing.server";
@@ -85,14 +85,7 @@ export default function SiteOutlookPage({ loaderData }: Route.ComponentProps) {
             <FilterSelect label="Run" name="run" value={outlook.runId} options={runs.map((run) => ({ value: run.id, label: run.label }))} />
             <FilterSelect label="Rule" name="rule" value={query.rule} options={outlook.rules.map((rule) => ({ value: rule, label: RULE_LABELS[rule] ?? rule }))} />
             <FilterSelect label="Service line" name="line" value={query.line} allLabel="All lines" options={outlook.lines.map((line) => ({ value: line.id, label: line.name }))} />
-            <label className="flex flex-col">
-              Target share within the standard (%)
-              <input name="target" type="number" min="1" max="99.9" step="0.1" defaultValue={query.target} className="w-28 rounded border border-rule px-2 py-1 num" />
-            </label>
-            <label className="flex flex-col">
-              Standard (weeks; blank = the line's own)
-              <input name="standard" type="number" min="0" step="0.5" defaultValue={query.standard ?? ""} className="w-28 rounded border border-rule px-2 py-1 num" />
-            </label>
+            <TeamsTargetFields target={query.target} standard={query.standard} />
             <button type="submit" className="rounded bg-accent px-4 py-1.5 font-semibold text-white">
               Show
             </button>

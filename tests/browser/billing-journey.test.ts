@@ -7,23 +7,15 @@
  * time) until the webhook has been mirrored.
  */
 import type { Browser, Page } from "playwright-core";
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { describe, expect, it } from "vitest";
 import { TEST_CARDS } from "../../app/fakes/stripe/pages";
 import { PAID_PLANS } from "../../app/services/plans";
-import { launchBrowser, signInAs, startApp, type RunningApp } from "./harness";
+import { signInAs, useRunningApp, type RunningApp } from "./harness";
 
 let app: RunningApp;
 let browser: Browser;
 
-beforeAll(async () => {
-  app = await startApp();
-  browser = await launchBrowser();
-}, 180_000);
-
-afterAll(async () => {
-  await browser?.close();
-  await app?.stop();
-});
+useRunningApp((started) => ({ app, browser } = started));
 
 /** Reloads the billing page until `ready` holds, at most `attempts` times over about `attempts` × 0.5 s. */
 async function reloadUntil(page: Page, ready: () => Promise<boolean>, attempts = 40): Promise<boolean> {

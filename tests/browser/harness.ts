@@ -9,6 +9,7 @@ import net from "node:net";
 import os from "node:os";
 import path from "node:path";
 import { chromium, type Browser, type Page } from "playwright-core";
+import { afterAll, beforeAll } from "vitest";
 import type { Role } from "../../app/db/schema";
 import { DEMO_PEOPLE, type DemoOrganisationSlug, type DemoPerson } from "../../seed/people";
 
@@ -120,4 +121,22 @@ export async function signInAs(page: Page, app: RunningApp, role: Role, organisa
   await page.locator("button.person", { hasText: person.name }).click();
   await page.waitForURL((url) => url.origin === app.url && !url.pathname.startsWith("/auth/"));
   return person;
+}
+
+/**
+ * Starts the app and a browser before the file's tests and stops both afterwards; `onStarted`
+ * receives them (assign them to the file's variables).
+ */
+export function useRunningApp(onStarted: (started: { app: RunningApp; browser: Browser }) => void): void {
+  let app: RunningApp | undefined;
+  let browser: Browser | undefined;
+  beforeAll(async () => {
+    app = await startApp();
+    browser = await launchBrowser();
+    onStarted({ app, browser });
+  }, 180_000);
+  afterAll(async () => {
+    await browser?.close();
+    await app?.stop();
+  });
 }

@@ -3,21 +3,13 @@
  * and reach the scenario list; sign in as a reader and be refused a scenario's edit page.
  */
 import type { Browser } from "playwright-core";
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { launchBrowser, signInAs, startApp, type RunningApp } from "./harness";
+import { describe, expect, it } from "vitest";
+import { signInAs, useRunningApp, type RunningApp } from "./harness";
 
 let app: RunningApp;
 let browser: Browser;
 
-beforeAll(async () => {
-  app = await startApp();
-  browser = await launchBrowser();
-}, 180_000);
-
-afterAll(async () => {
-  await browser?.close();
-  await app?.stop();
-});
+useRunningApp((started) => ({ app, browser } = started));
 
 describe("signing in through the local identity provider", () => {
   it("takes a planner to the scenario list", async () => {

@@ -8,24 +8,16 @@
 import { readFile } from "node:fs/promises";
 import Papa from "papaparse";
 import type { Browser, BrowserContext, Page } from "playwright-core";
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { describe, expect, it } from "vitest";
 import { RULE_LABELS, summariseRules, type ResultDocument } from "../../app/models/result-document";
 import type { ScenarioDoc } from "../../app/models/scenario-document";
 import { PLANNING_CAUTIONS } from "../../app/engine/cautions";
-import { launchBrowser, signInAs, startApp, type RunningApp } from "./harness";
+import { signInAs, useRunningApp, type RunningApp } from "./harness";
 
 let app: RunningApp;
 let browser: Browser;
 
-beforeAll(async () => {
-  app = await startApp();
-  browser = await launchBrowser();
-}, 180_000);
-
-afterAll(async () => {
-  await browser?.close();
-  await app?.stop();
-});
+useRunningApp((started) => ({ app, browser } = started));
 
 const ORG = "caldervey";
 

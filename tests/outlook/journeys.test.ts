@@ -14,9 +14,9 @@ import os from "node:os";
 import path from "node:path";
 import type { Browser, Page } from "playwright-core";
 import type { Role } from "../../app/db/schema";
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { afterAll, describe, expect, it } from "vitest";
 import { PLANNING_CAUTIONS } from "../../app/components/planning-cautions";
-import { launchBrowser, signInAs as signInWith, startApp, type RunningApp } from "../browser/harness";
+import { signInAs as signInWith, useRunningApp, type RunningApp } from "../browser/harness";
 
 let app: RunningApp;
 let browser: Browser;
@@ -24,14 +24,9 @@ let runId: number;
 const ORG = "caldervey";
 const scratch = mkdtempSync(path.join(os.tmpdir(), "equilibra-brief-"));
 
-beforeAll(async () => {
-  app = await startApp();
-  browser = await launchBrowser();
-}, 180_000);
+useRunningApp((started) => ({ app, browser } = started));
 
-afterAll(async () => {
-  await browser?.close();
-  await app?.stop();
+afterAll(() => {
   rmSync(scratch, { recursive: true, force: true });
 });
 
