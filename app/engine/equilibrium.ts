@@ -50,6 +50,12 @@ export interface SolveOptions {
   maxIterations?: number;
   /** Site costs to start from (e.g. the previous period's waits). Default: each site's empty wait. */
   warmStartWaits?: Float64Array;
+  /**
+   * Volume bounds per site (the plan's contracts and ceilings; lower 0 / upper Infinity = none):
+   * solved through the clamped inverse of `SiteInverse`, whose excess cost at a bound is the
+   * bound's toll (reported in `siteCost`, counted in the relative gap).
+   */
+  loadBounds?: { lower: Float64Array; upper: Float64Array };
 }
 
 export interface SolveResult {
@@ -64,6 +70,7 @@ interface NormalisedOptions {
   tolerance: number;
   maxIterations: number;
   warmStartWaits: Float64Array | undefined;
+  loadBounds: SolveOptions["loadBounds"];
 }
 
 export function normaliseOptions(options: SolveOptions): NormalisedOptions {
@@ -72,6 +79,7 @@ export function normaliseOptions(options: SolveOptions): NormalisedOptions {
     tolerance: options.tolerance ?? 1e-10,
     maxIterations: options.maxIterations ?? 2000,
     warmStartWaits: options.warmStartWaits,
+    loadBounds: options.loadBounds,
   };
 }
 
@@ -88,7 +96,12 @@ export function assertSteadyState(problem: LineProblem): void {
   }
 }
 
-export function buildCostView(problem: LineProblem, curves: SiteCostCurve[], siteToll: Float64Array | undefined): CostView {
+export function buildCostView(
+  problem: LineProblem,
+  curves: SiteCostCurve[],
+  siteToll: Float64Array | undefined,
+  loadBounds?: SolveOptions["loadBounds"],
+): CostView {
   const { n, m } = problem;
   let pairCost = problem.travelCost;
   if (siteToll) {
@@ -104,7 +117,9 @@ export function buildCostView(problem: LineProblem, curves: SiteCostCurve[], sit
     outsideCost: problem.outsideCost,
     outsideSpread: problem.outsideSpread,
     pairCost,
-    inverses: curves.map((curve) => new SiteInverse(curve)),
+    inverses: curves.map((curve, j) =>
+      loadBounds ? new SiteInverse(curve, { lower: loadBounds.lower[j], upper: loadBounds.upper[j] }) : new SiteInverse(curve),
+    ),
     totalDemand,
   };
 }
@@ -132,16 +147,15 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   const settings = normaliseOptions(options);
   assertSteadyState(problem);
   const { n, m } = problem;
-  const view = buildCostView(problem, curves, settings.siteToll);
+  const view = buildCostView(problem, curves, settings.siteToll, settings.loadBounds);
   const warnings: string[] = [];
   const w = new Float64Array(m);
-  for (let j = 0; j < m; j++) w[j] = view.inverses[j].closed ? Infinity : (settings.warmStartWaits?.[j] ?? view.inverses[j].emptyCost);
+  for (let j = 0; j < m; j++) w[j] = view.inverses[j].closed ? Infinity : (settings.warmStartWaits?.[j] ?? view.inverses[j].startCost);
   const workspace = new LogitWorkspace(n, m);
   let iterations = 0;
   if (view.totalDemand <= 0 || m === 0) {
-    return finishOutcome(problem, curves, view, new Float64Array(n * m), new Float64Array(n), settings, 0, warnings);
+    return finishOutcome(problem, curves, view, new Float64Array(n * m), new Float64Array(n), null, settings, 0, warnings);
   }
-
   // Continuation: θ up by factors of THETA_FACTOR from a smooth start to θ_finish = FINISH_SCALE / cost scale.
   const startTheta = initialTheta(view, w);
   let budget = settings.maxIterations;
@@ -163,13 +177,13 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
     iterations += finish.iterations;
     budget -= finish.iterations;
     if (finish.ok) {
-      const result = finishOutcome(problem, curves, view, finish.flow, finish.balked, settings, iterations, warnings);
+      const result = finishOutcome(problem, curves, view, finish.flow, finish.balked, finish.siteCost, settings, iterations, warnings);
       if (result.diagnostics.converged || last || budget <= 0) return annotate(result, ruleName);
     } else if (last || budget <= 0) {
       warnings.push(`${ruleName}: the exact finish failed (${finish.message}); the logit approximation at θ = ${theta.toExponential(2)} is reported.`);
       evaluateLogit(view, theta, w, workspace);
       const { flow, balked } = logitAllocation(view, workspace);
-      return annotate(finishOutcome(problem, curves, view, flow, balked, settings, iterations, warnings), ruleName);
+      return annotate(finishOutcome(problem, curves, view, flow, balked, w, settings, iterations, warnings), ruleName);
     }
     // Retry from a sharper logit solution (the same θ solved tighter, then larger θ).
     fromTheta = Math.min(theta * THETA_FACTOR, baseFinishTheta * FINISH_ATTEMPTS[Math.min(attempt + 1, FINISH_ATTEMPTS.length - 1)].thetaScale);
@@ -193,12 +207,16 @@ function finishOutcome(
   view: CostView,
   flow: Float64Array,
   balked: Float64Array,
+  siteCost: Float64Array | null,
   settings: NormalisedOptions,
   iterations: number,
   warnings: string[],
 ): CurveSolveOutcome {
   const load = siteLoads(problem, flow);
-  const curveCost = Float64Array.from(load, (x, j) => (x > 0 ? curves[j].cost(x) : view.inverses[j].emptyCost));
+  // At a volume bound the site's cost is the solved one: the curve's plus the bound's toll.
+  const curveCost = Float64Array.from(load, (x, j) =>
+    siteCost && view.inverses[j].atBound(siteCost[j]) ? siteCost[j] : x > 0 ? curves[j].cost(x) : view.inverses[j].emptyCost,
+  );
   const allocation = { flow, balked };
   const gap = relativeGap(problem, allocation, curveCost, settings.siteToll).relativeGap;
   return {

@@ -17,8 +17,12 @@
  *    outside options). If refinement reaches the LP's size cap before its gap is certified, the
  *    dual method answers instead, with a warning — never an uncertified (NaN) gap;
  *  - "dual": Lagrangian relaxation of the site volume bounds. Each bound gets a multiplier τ_j
- *    (≥ 0 for a maximum, ≤ 0 for a minimum) charged as a per-referral toll; the relaxed problem is
- *    the unconstrained optimum with tolls (`solveOptimum`, any size). The tolls are updated until
+ *    (≥ 0 for a maximum, ≤ 0 for a minimum) charged as a per-referral toll. By default the
+ *    multipliers are found directly: the optimum's solver runs once on marginal-cost curves
+ *    clamped to the bounds (`SiteInverse` with `LoadBounds`), and τ_j is the excess of site j's
+ *    solved cost over its marginal cost. Otherwise (`multipliers: "iterate"`, or when the direct
+ *    solve does not settle) the relaxed problem is the unconstrained optimum with tolls
+ *    (`solveOptimum`, any size), and the tolls are updated until
  *    complementarity holds: a site with τ_j > 0 sits at its maximum, with τ_j < 0 at its minimum.
  *    Because the optimum is strictly convex in the site inflows, x(τ) is continuous and each
  *    x_j falls as τ_j rises (Everett 1963, "Generalized Lagrange multiplier method for solving
@@ -37,6 +41,8 @@
 import type { Allocation, LineProblem, SolveDiagnostics } from "./problem";
 import { ScenarioInputError } from "./problem";
 import { solveOptimum } from "./optimum";
+import { solveWardropOnCurves } from "./equilibrium";
+import { marginalCostCurve } from "./site-cost-curve";
 import { planTotalCost, siteMarginalCost, solvePlanLp, type PlanBounds } from "./plan-lp";
 
 /** The relaxed (tolled) optimum the dual method calls; `solveOptimum` in production. */
@@ -77,6 +83,13 @@ export interface PlanOptions {
   /** The inner solver of the dual method. Default: the tolled optimum of `optimum.ts`. */
   tolledOptimum?: TolledOptimumSolver;
   /**
+   * Dual method: "direct" (default) solves the optimum once on marginal-cost curves clamped to
+   * the bounds, reading each bound's multiplier off as the excess of the site's cost over its
+   * curve; "iterate" updates tolls on repeated unconstrained optima (below). The iteration also
+   * answers when the direct solve does not converge — it is what names a bound no toll can meet.
+   */
+  multipliers?: "direct" | "iterate";
+  /**
    * Dual method: multipliers to start from (e.g. the previous period's `siteToll`, or the last
    * what-if's), one per site; projected onto each bound's sign. Default all 0 (the optimum).
    */
@@ -103,7 +116,7 @@ export interface PlanSolution {
   diagnostics: SolveDiagnostics;
 }
 
-const DEFAULTS = { lpVariableLimit: 1000, tolerance: 1e-7, boundTolerance: 1e-9, maxIterations: 300 };
+const DEFAULTS = { lpVariableLimit: 1000, tolerance: 1e-7, boundTolerance: 1e-9, maxIterations: 300, multipliers: "direct" as "direct" | "iterate" };
 type PlanSettings = typeof DEFAULTS & PlanOptions;
 
 /** The problem with pairs longer than maxKm disallowed (a copy; the input is not changed). */
@@ -363,18 +376,43 @@ function solvePlanDual(
 ): PlanSolution {
   const { n, m, sites, siteIds } = problem;
   const { reduced, kept } = sourcesWithSites(problem);
-  const solveReduced = settings.tolledOptimum ?? solveOptimum;
-  // Inner solves on the reduced problem, expanded back: cut-off sources balk entirely.
-  const inner: TolledOptimumSolver = (_, innerOptions) => {
-    const outcome = solveReduced(reduced, innerOptions);
-    if (reduced === problem) return outcome;
+  // Cut-off sources balk entirely.
+  const expand = (allocation: Allocation): Allocation => {
+    if (reduced === problem) return allocation;
     const flow = new Float64Array(n * m);
     const balked = Float64Array.from(problem.demand);
     kept.forEach((i, row) => {
-      flow.set(outcome.allocation.flow.subarray(row * m, row * m + m), i * m);
-      balked[i] = outcome.allocation.balked[row];
+      flow.set(allocation.flow.subarray(row * m, row * m + m), i * m);
+      balked[i] = allocation.balked[row];
     });
-    return { allocation: { flow, balked }, diagnostics: outcome.diagnostics };
+    return { flow, balked };
+  };
+  const innerTolerance = Math.min(1e-10, settings.boundTolerance * 1e-1);
+  const withinBounds = (inflow: Float64Array): boolean =>
+    inflow.every((x, j) => {
+      const slack = settings.boundTolerance * Math.max(1, sites[j].capacity);
+      return x >= bounds.lower[j] - slack && x <= bounds.upper[j] + slack;
+    });
+  let directFailure: string | null = null;
+  if (settings.multipliers === "direct" && !settings.tolledOptimum) {
+    const curves = reduced.sites.map(marginalCostCurve);
+    const outcome = solveWardropOnCurves(reduced, curves, { tolerance: innerTolerance, loadBounds: bounds }, "plan");
+    if (outcome.diagnostics.converged && withinBounds(outcome.load)) {
+      const toll = Float64Array.from(outcome.curveCost, (cost, j) => {
+        const excess = cost - curves[j].cost(Math.max(outcome.load[j], 0));
+        if (Math.abs(excess) <= 1e-12 * (1 + Math.abs(cost))) return 0;
+        return (excess > 0 && Number.isFinite(bounds.upper[j])) || (excess < 0 && bounds.lower[j] > 0) ? excess : 0;
+      });
+      return finish(problem, bounds, "dual", expand(outcome.allocation), toll, outcome.diagnostics);
+    }
+    directFailure =
+      `plan: the direct multipliers did not settle (relative gap ${outcome.diagnostics.relativeGap.toExponential(2)}` +
+      `${withinBounds(outcome.load) ? "" : ", bounds not met"}); the toll iteration answered.`;
+  }
+  const solveReduced = settings.tolledOptimum ?? solveOptimum;
+  const inner: TolledOptimumSolver = (_, innerOptions) => {
+    const outcome = solveReduced(reduced, innerOptions);
+    return { allocation: expand(outcome.allocation), diagnostics: outcome.diagnostics };
   };
   // A warm start keeps only multipliers whose bound exists, with the bound's sign.
   const toll = Float64Array.from({ length: m }, (_, j) => {
@@ -386,7 +424,6 @@ function solvePlanDual(
   const previousToll = new Float64Array(m);
   const previousInflow = new Float64Array(m).fill(NaN);
   const inflow = new Float64Array(m);
-  const innerTolerance = Math.min(1e-10, settings.boundTolerance * 1e-1);
   // Multipliers beyond this (weeks-equivalent per referral) mean no toll can meet the bound.
   const tollLimit = 1e6 * (1 + maxFiniteCost(problem));
   let result: ReturnType<TolledOptimumSolver> | null = null;
@@ -442,7 +479,7 @@ function solvePlanDual(
   }
   if (!result) throw new Error("plan: maxIterations must be at least 1.");
   const converged = iterations < settings.maxIterations;
-  const warnings = [...result.diagnostics.warnings];
+  const warnings = [...(directFailure ? [directFailure] : []), ...result.diagnostics.warnings];
   if (!converged) {
     let worst = 0;
     let worstSite = 0;

@@ -50,23 +50,48 @@ export function waitCurve(site: SiteWaitModel): SiteCostCurve {
 }
 
 /**
+ * Volume bounds on a site's inflow (the plan's contracts and ceilings): lower 0 = none, upper
+ * Infinity = none.
+ */
+export interface LoadBounds {
+  lower: number;
+  upper: number;
+}
+
+/**
  * Inverts one site's cost curve with memory of the previous answer (the solvers call it with
  * slowly moving costs, so the previous inflow is an excellent first guess).
+ *
+ * With volume bounds [L, U] the site's cost is the curve plus the bounds' indicator, whose
+ * subgradient at U is [cost(U), ∞) and at L is (−∞, cost(L)]: the inverse is the clamped
+ * x = min(max(W⁻¹(w), L), U) (Rockafellar 1970, *Convex Analysis*, §24 — from memory for the
+ * section). The excess of w over the curve at a bound is that bound's multiplier (a toll per
+ * referral). Beyond a bound the inverse keeps a slope 1e-15 times the typical one, so the Newton
+ * systems stay nonsingular when every site of a group sits at a bound; a bound is then exceeded
+ * by that share of the typical slope times the toll (about 1e-11 of capacity on the demo region).
  */
 export class SiteInverse {
   readonly emptyCost: number;
   /** Slope dx/dw used below the empty cost, and the largest slope ever reported. */
   private readonly maxLoadSlope: number;
   private guess = 0;
+  /** Slope beyond a volume bound. */
+  private readonly boundSlope: number;
+  /** Curve cost at the lower and upper bound (−∞ / +∞ when there is none). */
+  private readonly lowerCost: number;
+  private readonly upperCost: number;
 
   /** A site with no capacity for routine patients (e.g. urgent work fills it): never used, cost Infinity. */
   readonly closed: boolean;
 
-  constructor(readonly curve: SiteCostCurve) {
+  constructor(readonly curve: SiteCostCurve, readonly bounds: LoadBounds = { lower: 0, upper: Infinity }) {
     this.emptyCost = curve.capacity > 0 ? curve.cost(0) : Infinity;
     this.closed = !Number.isFinite(this.emptyCost);
+    this.lowerCost = bounds.lower > 0 && bounds.lower < curve.capacity ? curve.cost(bounds.lower) : -Infinity;
+    this.upperCost = bounds.upper < curve.capacity ? curve.cost(Math.max(bounds.upper, 0)) : Infinity;
     if (this.closed) {
       this.maxLoadSlope = 1;
+      this.boundSlope = 0;
       return;
     }
     const half = curve.capacity / 2;
@@ -75,11 +100,28 @@ export class SiteInverse {
     // times the typical value keeps the Newton systems well scaled and changes no solution.
     const typicalSlope = Math.max((curve.cost(half) - this.emptyCost) / half, 1e-300);
     this.maxLoadSlope = 1e6 / typicalSlope;
+    this.boundSlope = 1e-15 / typicalSlope;
   }
 
-  /** Inflow x with cost(x) = w (x < 0 below the empty cost, by the linear extension). */
+  /** The cost the site starts from: its empty cost, or its cost at the lower bound. */
+  get startCost(): number {
+    return Number.isFinite(this.lowerCost) ? this.lowerCost : this.emptyCost;
+  }
+
+  /** Whether cost w lies beyond a volume bound (the bound holds the inflow, a toll prices it). */
+  atBound(w: number): boolean {
+    return w > this.upperCost || w < this.lowerCost;
+  }
+
+  /** Inflow x with cost(x) = w (x < 0 below the empty cost, by the linear extension), clamped to the bounds. */
   load(w: number): number {
     if (this.closed) return 0;
+    if (w > this.upperCost) return Math.max(this.bounds.upper, 0) + (w - this.upperCost) * this.boundSlope;
+    if (w < this.lowerCost) return this.bounds.lower + (w - this.lowerCost) * this.boundSlope;
+    return this.curveLoad(w);
+  }
+
+  private curveLoad(w: number): number {
     if (w <= this.emptyCost) return (w - this.emptyCost) * this.maxLoadSlope;
     const { curve } = this;
     let lo = 0;
@@ -107,6 +149,7 @@ export class SiteInverse {
   /** dx/dw at cost w. */
   loadSlope(w: number, x: number): number {
     if (this.closed) return 1;
+    if (this.atBound(w)) return this.boundSlope;
     if (w <= this.emptyCost) return this.maxLoadSlope;
     const slope = this.curve.slope(x);
     return slope > 0 ? Math.min(1 / slope, this.maxLoadSlope) : this.maxLoadSlope;

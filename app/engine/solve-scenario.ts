@@ -220,12 +220,10 @@ function runRule(scenario: Scenario, build: LineBuild, rule: RuleKey, previous: 
         maxKm: scenario.plan?.maxKm,
         urgentInflow: build.urgentInflow,
         fullCapacity: build.fullCapacity,
-        // The dual method at every size: exact, and seconds faster than the LP on a region
+        // The dual method at every size: exact, and far faster than the LP on a region
         // (app/engine/README.md, "The plan rule"); the tests keep the LP as its cross-check.
         method: "dual",
-        // The plan's dual method prices volume bounds with tolls on the optimum (no global wiring).
-        tolledOptimum: solveOptimum,
-        // The previous period's multipliers: the same bounds bind, at nearly the same prices.
+        // The previous period's multipliers, for the toll iteration should the direct solve not settle.
         warmStartTolls: previous && "siteToll" in previous && previous.siteToll instanceof Float64Array ? previous.siteToll : undefined,
       });
   }

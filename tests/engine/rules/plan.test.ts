@@ -10,7 +10,12 @@ import { ScenarioInputError } from "~/engine/problem";
 import { createSiteWaitModel } from "~/engine/site-wait";
 import { lineProblem, mmcSite, randomGenerator, randomProblem } from "./rules-support";
 
-const methods = ["lp", "dual"] as const;
+/** The LP, the dual method's direct multipliers (the product's), and its toll iteration (the fallback). */
+const methods = ["lp", "dual", "dual-iterate"] as const;
+type Method = (typeof methods)[number];
+function methodOptions(method: Method): { method: "lp" | "dual"; multipliers?: "direct" | "iterate" } {
+  return method === "dual-iterate" ? { method: "dual", multipliers: "iterate" } : { method };
+}
 
 function optimumCost(problem: LineProblem): { cost: number; inflow: Float64Array } {
   const result = solveOptimum(problem);
@@ -39,9 +44,9 @@ describe("plan on one M/M/1 site (Edelson & Hildebrand 1975, adapted)", () => {
   for (const method of methods) {
     for (const { name, spec, options, inflow, cost } of cases) {
       it(`${method}: ${name} → inflow ${inflow.toFixed(4)}, total cost ${cost}`, () => {
-        const result = solvePlan({ ...problem, ...floatSpec(spec) }, { ...options, method });
+        const result = solvePlan({ ...problem, ...floatSpec(spec) }, { ...options, ...methodOptions(method) });
         expect(result.status).toBe("solved");
-        expect(result.method).toBe(method);
+        expect(result.method).toBe(methodOptions(method).method);
         // Tolerances: the LP's certified gap is 1e-7 (cost); its inflow sits within a refined
         // segment of the flat minimum (1e-3). The dual method is exact to the inner solve (1e-6 / 1e-9).
         expect(result.totalCost).toBeGreaterThanOrEqual(cost - 1e-9);
@@ -64,7 +69,7 @@ describe("plan on one M/M/1 site (Edelson & Hildebrand 1975, adapted)", () => {
     const options = { maxUtilisation: 0.5, urgentInflow: new Float64Array([1]), fullCapacity: new Float64Array([8]) };
     expect(planBounds(urgentProblem, options).upper[0]).toBe(3);
     for (const method of methods) {
-      const result = solvePlan(urgentProblem, { ...options, method });
+      const result = solvePlan(urgentProblem, { ...options, ...methodOptions(method) });
       expect(result.status).toBe("solved");
       expect(result.siteInflow[0]).toBeCloseTo(3, 6);
       expect(result.siteWait[0]).toBeCloseTo(1 / 7, 6);
@@ -97,7 +102,7 @@ describe("plan on the two-practice, two-site instance (CHECKS.md)", () => {
 
   for (const method of methods) {
     it(`${method}: with no constraints the plan is the optimum`, () => {
-      const result = solvePlan(problem, { method });
+      const result = solvePlan(problem, methodOptions(method));
       expect(result.status).toBe("solved");
       expect(result.totalCost).toBeGreaterThanOrEqual(2.762658210195 - 1e-10);
       expect(result.totalCost).toBeLessThanOrEqual(2.762658210195 * (1 + 1e-7));
@@ -105,7 +110,7 @@ describe("plan on the two-practice, two-site instance (CHECKS.md)", () => {
     });
 
     it(`${method}: a 5.5 km journey limit removes practice 2's 6 km option`, () => {
-      const result = solvePlan(problem, { method, maxKm: 5.5 });
+      const result = solvePlan(problem, { ...methodOptions(method), maxKm: 5.5 });
       expect(result.status).toBe("solved");
       expect(result.allocation.flow[2]).toBe(0);
       expect(result.totalCost).toBeGreaterThanOrEqual(2.762658210195 - 1e-10);
@@ -169,7 +174,7 @@ describe("plan: infeasible constraints are named, not thrown", () => {
         sites: [mmcSite(2, 2), mmcSite(3, 2)],
         maxWeekly: [2, NaN],
       });
-      const result = solvePlan(joint, { method });
+      const result = solvePlan(joint, methodOptions(method));
       expect(result.status).toBe("infeasible");
       expect(result.infeasibilities[0]).toMatch(/"P1"/);
     });
@@ -202,6 +207,15 @@ describe("plan properties on random instances", () => {
       const { problem, options } = constrainedInstance(seed, spread);
       const dual = solvePlan(problem, { ...options, method: "dual" });
       expect(dual.status).toBe("solved");
+      // The direct multipliers and the toll iteration find the same plan (both exact to the inner gap).
+      expect(dual.diagnostics.warnings.join(" ")).not.toMatch(/direct multipliers/);
+      const iterated = solvePlan(problem, { ...options, method: "dual", multipliers: "iterate" });
+      expect(iterated.status).toBe("solved");
+      expect(dual.totalCost).toBeCloseTo(iterated.totalCost, 8);
+      for (let j = 0; j < problem.m; j++) {
+        expect(dual.siteInflow[j]).toBeCloseTo(iterated.siteInflow[j], 6);
+        expect(dual.siteToll?.[j]).toBeCloseTo(iterated.siteToll?.[j] ?? NaN, 4);
+      }
       const limited = withJourneyLimit(problem, options.maxKm);
       const bounds = planBounds(limited, options);
       const lp = solvePlanLp(limited, bounds);
@@ -249,7 +263,7 @@ describe("plan properties on random instances", () => {
       const free = { ...problem, maxWeekly: new Float64Array(problem.m).fill(NaN), minWeekly: new Float64Array(problem.m).fill(NaN) };
       const optimum = optimumCost(free);
       for (const method of methods) {
-        const bound = solvePlan(problem, { ...options, method });
+        const bound = solvePlan(problem, { ...options, ...methodOptions(method) });
         expect(bound.totalCost).toBeGreaterThanOrEqual(optimum.cost * (1 - 1e-9));
         // Slack: volumes 0.5× and 2× the optimum's, no ceiling, journeys of any length.
         const slack = {
@@ -257,11 +271,11 @@ describe("plan properties on random instances", () => {
           minWeekly: Float64Array.from(optimum.inflow, (x) => 0.5 * x),
           maxWeekly: Float64Array.from(optimum.inflow, (x) => 2 * x),
         };
-        const plan = solvePlan(slack, { method, maxKm: 1e6 });
+        const plan = solvePlan(slack, { ...methodOptions(method), maxKm: 1e6 });
         expect(plan.status).toBe("solved");
         expect(plan.totalCost).toBeGreaterThanOrEqual(optimum.cost * (1 - 1e-9));
         expect(plan.totalCost).toBeLessThanOrEqual(optimum.cost * (1 + 2e-7));
-        if (method === "dual") {
+        if (method !== "lp") {
           expect(Array.from(plan.siteToll ?? [])).toEqual(new Array(problem.m).fill(0));
           for (let j = 0; j < problem.m; j++) expect(plan.siteInflow[j]).toBeCloseTo(optimum.inflow[j], 6);
         }
@@ -296,10 +310,10 @@ describe("plan properties on random instances", () => {
 
   it("the dual method from warm-start tolls (the last answer's) reaches the same plan in fewer toll updates", () => {
     const problem = randomProblem(22, 12, 4, { spread: true });
-    const cold = solvePlan(problem, { method: "dual", maxUtilisation: 0.3 });
+    const cold = solvePlan(problem, { method: "dual", multipliers: "iterate", maxUtilisation: 0.3 });
     expect(cold.status).toBe("solved");
     expect(cold.siteToll?.some((toll) => toll > 0)).toBe(true);
-    const warm = solvePlan(problem, { method: "dual", maxUtilisation: 0.3, warmStartTolls: cold.siteToll ?? undefined });
+    const warm = solvePlan(problem, { method: "dual", multipliers: "iterate", maxUtilisation: 0.3, warmStartTolls: cold.siteToll ?? undefined });
     expect(warm.status).toBe("solved");
     expect(warm.diagnostics.iterations).toBeLessThan(cold.diagnostics.iterations);
     expect(warm.totalCost).toBeCloseTo(cold.totalCost, 8);
