@@ -27,6 +27,12 @@ const environmentSchema = z.object({
   STRIPE_WEBHOOK_SECRET: optionalString,
   /** Base URL of the Stripe API (the local fake's when no real key is configured). */
   STRIPE_API_BASE: optionalString,
+  /** Worker threads that solve scenarios (default: one per CPU but one, at least 1). */
+  SOLVE_WORKERS: z.coerce.number().int().min(1).max(256).optional(),
+  /** Solves that may wait for a worker; beyond this a solve is answered 503 with Retry-After. */
+  SOLVE_QUEUE_LIMIT: z.coerce.number().int().min(0).default(64),
+  /** A solve running longer than this is stopped (its worker replaced) and answered 504. */
+  SOLVE_TIMEOUT_SECONDS: z.coerce.number().positive().default(120),
 });
 
 export type AppConfig = z.infer<typeof environmentSchema> & { appUrl: string; secureCookies: boolean };

@@ -4,17 +4,19 @@
  * gap per rule and line), who ran it and when. A run never changes after it is stored, so any run
  * can be reopened later and read exactly as it was, whatever happened to the scenario since.
  *
- * The engine runs outside any transaction: PGlite has one connection, and a transaction would hold
- * it for the whole solve.
+ * The engine runs outside any transaction (PGlite has one connection, and a transaction would hold
+ * it for the whole solve) and off the event loop, on the solve pool's worker threads.
  */
 import { and, desc, eq, isNotNull, sql, type SQL } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { runs, users } from "~/db/schema";
-import { NoSteadyStateError, ScenarioInputError, type RuleKey } from "~/engine/problem";
-import { parseScenario } from "~/engine/scenario";
-import { solveScenario, type ScenarioResult } from "~/engine/solve-scenario";
+import type { ScenarioResult } from "~/engine/solve-scenario";
 import { recordAudit } from "./audit.server";
 import { exportScenario, type ScenarioDocument } from "./scenarios.server";
+import type { SolveChoices, SolveOutcome } from "./solve-document";
+import { solvePool, SolvePoolError } from "./solve-pool.server";
+
+export { solveDocument, type SolveChoices, type SolveOutcome } from "./solve-document";
 
 export type RunRecord = typeof runs.$inferSelect;
 
@@ -44,43 +46,24 @@ export interface RunSummary {
   priceOfAnarchy: number | null;
 }
 
-/** What a solve produced, or why the model has no answer (an input error or no steady state). */
-export type SolveOutcome =
-  | { ok: true; result: ScenarioResult; durationMs: number }
-  | { ok: false; status: 400 | 422; error: string; issues: { path: string; message: string }[] };
+/**
+ * A solve on the server's worker pool: what `solveDocument` answers, or why the pool gave no answer
+ * — 503 when every worker is busy and the queue is full (retry after `retryAfterSeconds`), 504 when
+ * the solve ran past the time limit, 500 when its worker died.
+ */
+export type PooledSolveOutcome =
+  | SolveOutcome
+  | { ok: false; status: 500 | 503 | 504; error: string; issues: { path: string; message: string }[]; retryAfterSeconds?: number };
 
-export interface SolveChoices {
-  /** Only these rules (default: every rule that applies). */
-  rules?: RuleKey[];
-  /** Solve the scenario's periods too (default true); the stationary problem is always solved. */
-  periods?: boolean;
-}
-
-/** Validates and solves an exchange-format document; never throws for bad input. */
-export function solveDocument(input: unknown, choices: SolveChoices = {}): SolveOutcome {
-  let scenario;
+/**
+ * Validates and solves an exchange-format document on a worker thread, so the web server keeps
+ * answering other requests meanwhile; never throws for bad input or a busy server.
+ */
+export async function solveDocumentInPool(input: unknown, choices: SolveChoices = {}): Promise<PooledSolveOutcome> {
   try {
-    scenario = parseScenario(input);
+    return await solvePool().run("solve", { input, choices: { rules: choices.rules, periods: choices.periods } });
   } catch (error) {
-    if (error instanceof ScenarioInputError) return { ok: false, status: 400, error: "The scenario is not valid.", issues: error.issues };
-    throw error;
-  }
-  const started = performance.now();
-  try {
-    const result = solveScenario(scenario, { rules: choices.rules, periods: choices.periods });
-    return { ok: true, result, durationMs: performance.now() - started };
-  } catch (error) {
-    if (error instanceof NoSteadyStateError) {
-      return {
-        ok: false,
-        status: 422,
-        error: error.message,
-        issues: error.shortfalls.map((shortfall) => ({
-          path: `serviceLines.${shortfall.lineId}`,
-          message: `demand ${shortfall.demand.toFixed(2)}/week exceeds capacity ${shortfall.capacity.toFixed(2)}/week at ${shortfall.siteIds.join(", ")} by ${shortfall.shortfall.toFixed(2)} with no outside option`,
-        })),
-      };
-    }
+    if (error instanceof SolvePoolError) return { ok: false, status: error.status, error: error.message, issues: [], retryAfterSeconds: error.retryAfterSeconds };
     throw error;
   }
 }
@@ -117,11 +100,11 @@ export async function createRun(
   organisationId: number,
   scenarioId: number,
   options: { userId: number | null; label?: string | null } & SolveChoices,
-): Promise<null | { ok: true; run: RunSummary } | Extract<SolveOutcome, { ok: false }>> {
+): Promise<null | { ok: true; run: RunSummary } | Extract<PooledSolveOutcome, { ok: false }>> {
   const db = await getDb();
   const document = await exportScenario(db, organisationId, scenarioId);
   if (!document) return null;
-  const outcome = solveDocument(document, { rules: options.rules, periods: options.periods });
+  const outcome = await solveDocumentInPool(document, { rules: options.rules, periods: options.periods });
   if (!outcome.ok) return outcome;
   const [row] = await db
     .insert(runs)

@@ -12,6 +12,7 @@ import { createRun, listRuns } from "~/models/runs.server";
 import { scenarioSize } from "~/models/plan-gates.server";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
 import { idParam, methodNotAllowed, requireApiPlan } from "./api-support.server";
+import { solveRefusal } from "./solve-refusal.server";
 import type { Route } from "./+types/api.v1.o.$org.scenarios.$id.runs";
 
 const RULE_KEYS = ["choice", "choiceLogit", "optimum", "nearest", "capacityShare", "plan"] as const;
@@ -51,6 +52,6 @@ export async function action({ request, params }: Route.ActionArgs) {
   await requireApiPlan(organisation, ["runs", "problemSize"], scenarioSize(document));
   const outcome = await createRun(organisation.id, id, { userId: user.id, label: parsed.data.label ?? undefined, periods: parsed.data.periods, rules: parsed.data.rules });
   if (outcome === null) return apiError(404, "No such scenario in this organisation.");
-  if (!outcome.ok) return apiError(outcome.status, outcome.error, outcome.issues);
+  if (!outcome.ok) return solveRefusal(outcome);
   return Response.json({ run: outcome.run, url: `/o/${organisation.slug}/scenarios/${id}?run=${outcome.run.id}` }, { status: 201 });
 }

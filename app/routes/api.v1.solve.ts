@@ -5,12 +5,15 @@
  * any organisation the person belongs to.
  * Query options: `periods=0` solves only the stationary problem (not the scenario's periods);
  * `rules=choice,optimum` solves only those rules.
+ * The solve runs on a worker thread (`app/models/solve-pool.server.ts`): 503 with `Retry-After` when
+ * every worker is busy and the queue is full, 504 past the time limit.
  */
 import { apiError, requireApiAccess, requireApiUser } from "~/auth/api-guards.server";
 import type { RuleKey } from "~/engine/problem";
 import { planRefusalForPerson, scenarioSize } from "~/models/plan-gates.server";
-import { solveDocument } from "~/models/runs.server";
+import { solveDocumentInPool } from "~/models/runs.server";
 import { methodNotAllowed, readJsonBody, requireApiPlan } from "./api-support.server";
+import { solveRefusal } from "./solve-refusal.server";
 import type { Route } from "./+types/api.v1.solve";
 
 const RULE_KEYS: readonly RuleKey[] = ["choice", "choiceLogit", "optimum", "nearest", "capacityShare", "plan"];
@@ -34,8 +37,8 @@ export async function action({ request }: Route.ActionArgs) {
     const refusal = await planRefusalForPerson(user.id, ["runs", "problemSize"], size);
     if (refusal) return apiError(403, refusal.message);
   }
-  const outcome = solveDocument(body, { periods: periods === null ? undefined : periods === "1", rules: rules as RuleKey[] | undefined });
-  if (!outcome.ok) return apiError(outcome.status, outcome.error, outcome.issues);
+  const outcome = await solveDocumentInPool(body, { periods: periods === null ? undefined : periods === "1", rules: rules as RuleKey[] | undefined });
+  if (!outcome.ok) return solveRefusal(outcome);
   return Response.json(outcome.result, { headers: { "X-Solve-Milliseconds": outcome.durationMs.toFixed(1) } });
 }
 

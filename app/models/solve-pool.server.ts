@@ -1,0 +1,293 @@
+/**
+ * A small pool of worker threads that run the engine, so that a solve (a second or more for a
+ * region of the demo's size) never blocks the web server's event loop and every other page with it.
+ *
+ * - Workers start when work arrives, up to `size`; an idle worker does not keep the process alive.
+ * - Jobs wait in a bounded first-in-first-out queue; when it is full the job is refused at once
+ *   (`SolvePoolError` with status 503 and a retry delay) instead of waiting without limit.
+ * - A job running longer than `timeoutMs` is stopped by terminating its worker (a synchronous solve
+ *   cannot be interrupted otherwise) and refused with 504; the worker is replaced.
+ * - A worker that dies (an uncaught error, running out of memory, exiting) fails its job with 500
+ *   and is replaced; the jobs queued behind it are not lost.
+ *
+ * Each worker runs `solve-worker.ts` from source through tsx's loader, in development, tests and
+ * production alike (DEVELOPERS.md, "Solves run on worker threads from source").
+ */
+import { existsSync, readFileSync } from "node:fs";
+import { createRequire } from "node:module";
+import os from "node:os";
+import path from "node:path";
+import { fileURLToPath, pathToFileURL } from "node:url";
+import { Worker } from "node:worker_threads";
+import { config } from "~/config.server";
+import { rebuildThrown, type JobMap, type JobMessage, type JobReply, type SolveJobs } from "./solve-jobs";
+
+/** Why the pool could not give an answer (the job itself never threw). */
+export class SolvePoolError extends Error {
+  constructor(
+    readonly status: 500 | 503 | 504,
+    message: string,
+    /** For 503: when a retry is likely to find room, in whole seconds. */
+    readonly retryAfterSeconds?: number,
+  ) {
+    super(message);
+    this.name = "SolvePoolError";
+  }
+}
+
+export interface SolvePoolOptions {
+  /** Worker threads at most (≥ 1). */
+  size: number;
+  /** Jobs that may wait for a worker (≥ 0); beyond this a job is refused with 503. */
+  queueLimit: number;
+  /** A job running longer than this is stopped and refused with 504. */
+  timeoutMs: number;
+  /** The worker's module as a file URL; `solve-worker.ts` by default. Tests pass workers of their own. */
+  entry?: string;
+}
+
+export interface SolvePoolStats {
+  workers: number;
+  busy: number;
+  queued: number;
+  /** Workers that died or were stopped on a timeout since the pool started. */
+  replaced: number;
+}
+
+interface Job {
+  id: number;
+  kind: string;
+  request: unknown;
+  resolve(answer: unknown): void;
+  reject(error: Error): void;
+}
+
+interface Slot {
+  worker: Worker;
+  job: Job | null;
+  startedAt: number;
+  timer: NodeJS.Timeout | null;
+  /** Set when the pool itself ends the worker, so its exit is not taken for a crash. */
+  retiring: boolean;
+  lastError: Error | null;
+}
+
+/**
+ * Workers load TypeScript through tsx (a runtime dependency). `--import tsx` in a worker's execArgv
+ * does not reach the worker's own module loader on Node 20, so a two-line bootstrap registers
+ * tsx's loader inside the thread and then imports the entry.
+ */
+const BOOTSTRAP = `
+const { workerData } = require("node:worker_threads");
+import(workerData.tsxApi).then((tsx) => { tsx.register(); return import(workerData.entry); });
+`;
+
+/**
+ * tsx's `register` API as an ES module. `require.resolve` would pick the package's CommonJS build
+ * of it, which cannot be imported into a worker, and tsx's default entry skips worker threads; so
+ * the import condition of its `./esm/api` export is read from its manifest.
+ */
+function tsxApiUrl(): string {
+  const manifestPath = createRequire(import.meta.url).resolve("tsx/package.json");
+  const manifest = JSON.parse(readFileSync(manifestPath, "utf8")) as { exports?: Record<string, { import?: { default?: string } }> };
+  const target = manifest.exports?.["./esm/api"]?.import?.default;
+  if (!target) throw new Error(`tsx at ${path.dirname(manifestPath)} has no "./esm/api" import export; the solve workers need it to load TypeScript.`);
+  return pathToFileURL(path.join(path.dirname(manifestPath), target)).href;
+}
+
+/**
+ * `app/models/solve-worker.ts`, found by walking up from this module: it sits beside it in
+ * development and tests, and two or three levels above the bundle chunk in production
+ * (`build/server/…`), so no single relative path fits both.
+ */
+export function defaultWorkerEntry(): string {
+  const start = path.dirname(fileURLToPath(import.meta.url));
+  for (let directory = start; ; directory = path.dirname(directory)) {
+    const candidate = path.join(directory, "app", "models", "solve-worker.ts");
+    if (existsSync(candidate)) return pathToFileURL(candidate).href;
+    if (path.dirname(directory) === directory) {
+      throw new Error(`The solve worker's entry app/models/solve-worker.ts was not found above ${start}: the server needs the project's app/ folder beside its build.`);
+    }
+  }
+}
+
+export class SolvePool<Jobs extends JobMap = SolveJobs> {
+  private readonly slots: Slot[] = [];
+  private readonly queue: Job[] = [];
+  private readonly entry: string;
+  private readonly tsxApi: string;
+  private nextId = 1;
+  private replaced = 0;
+  private closed = false;
+  /** Recent job duration (exponential average), for the retry delay offered with a 503. */
+  private typicalJobMs = 1000;
+
+  constructor(private readonly options: SolvePoolOptions) {
+    if (!(Number.isInteger(options.size) && options.size >= 1)) throw new RangeError(`size must be a whole number ≥ 1, got ${options.size}`);
+    if (!(Number.isInteger(options.queueLimit) && options.queueLimit >= 0)) throw new RangeError(`queueLimit must be a whole number ≥ 0, got ${options.queueLimit}`);
+    if (!(options.timeoutMs > 0)) throw new RangeError(`timeoutMs must be > 0, got ${options.timeoutMs}`);
+    this.entry = options.entry ?? defaultWorkerEntry();
+    this.tsxApi = tsxApiUrl();
+  }
+
+  /**
+   * Runs one job on a worker. Resolves with the job's answer; rejects with the error the job threw
+   * (rebuilt as its class) or with a `SolvePoolError` (queue full, timeout, worker died, closed).
+   */
+  run<Kind extends keyof Jobs & string>(kind: Kind, request: Jobs[Kind]["request"]): Promise<Jobs[Kind]["answer"]> {
+    return new Promise((resolve, reject) => {
+      if (this.closed) return reject(new SolvePoolError(503, "The server is shutting down; no solve was started."));
+      const job: Job = { id: this.nextId++, kind, request, resolve: resolve as (answer: unknown) => void, reject };
+      const idle = this.slots.find((slot) => slot.job === null);
+      if (idle) return this.dispatch(idle, job);
+      if (this.slots.length < this.options.size) return this.dispatch(this.startWorker(), job);
+      if (this.queue.length < this.options.queueLimit) {
+        this.queue.push(job);
+        return;
+      }
+      const retryAfterSeconds = Math.max(1, Math.ceil((this.typicalJobMs * (this.queue.length + 1)) / this.options.size / 1000));
+      reject(
+        new SolvePoolError(
+          503,
+          `The server is busy: all ${this.options.size} solve workers are working and ${this.queue.length} solves are waiting. Try again in about ${retryAfterSeconds} s.`,
+          retryAfterSeconds,
+        ),
+      );
+    });
+  }
+
+  stats(): SolvePoolStats {
+    return { workers: this.slots.length, busy: this.slots.filter((slot) => slot.job !== null).length, queued: this.queue.length, replaced: this.replaced };
+  }
+
+  /** Refuses waiting and running jobs with 503 and stops every worker. */
+  async close(): Promise<void> {
+    this.closed = true;
+    for (const job of this.queue.splice(0)) job.reject(new SolvePoolError(503, "The server is shutting down; the solve was not started."));
+    const slots = this.slots.splice(0);
+    for (const slot of slots) {
+      slot.retiring = true;
+      if (slot.timer) clearTimeout(slot.timer);
+      slot.job?.reject(new SolvePoolError(503, "The server is shutting down; the solve was stopped."));
+      slot.job = null;
+    }
+    await Promise.all(slots.map((slot) => slot.worker.terminate()));
+  }
+
+  private startWorker(): Slot {
+    const worker = new Worker(BOOTSTRAP, { eval: true, workerData: { tsxApi: this.tsxApi, entry: this.entry } });
+    const slot: Slot = { worker, job: null, startedAt: 0, timer: null, retiring: false, lastError: null };
+    this.slots.push(slot);
+    worker.on("message", (reply: JobReply) => this.settle(slot, reply));
+    worker.on("messageerror", (error) => this.fail(slot, new SolvePoolError(500, `The solver's answer could not be read: ${error.message}`)));
+    worker.on("error", (error) => {
+      slot.lastError = error;
+    });
+    worker.on("exit", (code) => this.exited(slot, code));
+    return slot;
+  }
+
+  private dispatch(slot: Slot, job: Job): void {
+    slot.job = job;
+    slot.startedAt = performance.now();
+    slot.worker.ref();
+    slot.timer = setTimeout(() => this.timedOut(slot), this.options.timeoutMs);
+    slot.worker.postMessage({ id: job.id, kind: job.kind, request: job.request } satisfies JobMessage<JobMap, string>);
+  }
+
+  /** Frees the slot and starts the next waiting job on it. */
+  private release(slot: Slot): void {
+    if (slot.timer) clearTimeout(slot.timer);
+    slot.timer = null;
+    slot.job = null;
+    slot.worker.unref();
+    const next = this.queue.shift();
+    if (next) this.dispatch(slot, next);
+  }
+
+  private settle(slot: Slot, reply: JobReply): void {
+    const job = slot.job;
+    if (!job || job.id !== reply.id) return;
+    this.typicalJobMs = 0.8 * this.typicalJobMs + 0.2 * (performance.now() - slot.startedAt);
+    this.release(slot);
+    if ("thrown" in reply) job.reject(rebuildThrown(reply.thrown));
+    else job.resolve(reply.answer);
+  }
+
+  private fail(slot: Slot, error: SolvePoolError): void {
+    const job = slot.job;
+    if (!job) return;
+    this.release(slot);
+    job.reject(error);
+  }
+
+  private timedOut(slot: Slot): void {
+    const job = slot.job;
+    if (!job) return;
+    slot.job = null;
+    slot.timer = null;
+    job.reject(
+      new SolvePoolError(504, `The solve did not finish within ${Number((this.options.timeoutMs / 1000).toPrecision(3))} s and was stopped (SOLVE_TIMEOUT_SECONDS). Solve fewer rules or only the stationary problem (periods=0).`),
+    );
+    this.retire(slot);
+  }
+
+  /** Ends a worker the pool no longer trusts and moves waiting work to a fresh one. */
+  private retire(slot: Slot): void {
+    slot.retiring = true;
+    this.remove(slot);
+    void slot.worker.terminate();
+    this.replaced++;
+    this.refill();
+  }
+
+  private exited(slot: Slot, code: number): void {
+    if (slot.retiring) return;
+    this.remove(slot);
+    this.replaced++;
+    const job = slot.job;
+    if (job) {
+      if (slot.timer) clearTimeout(slot.timer);
+      const cause = slot.lastError ? `: ${slot.lastError.message}` : ` (exit code ${code})`;
+      job.reject(new SolvePoolError(500, `The solver stopped unexpectedly while working on this request${cause}. It has been restarted; the request can be sent again.`));
+    }
+    this.refill();
+  }
+
+  private remove(slot: Slot): void {
+    const index = this.slots.indexOf(slot);
+    if (index >= 0) this.slots.splice(index, 1);
+  }
+
+  /** Starts workers for waiting jobs, up to the pool's size. */
+  private refill(): void {
+    while (!this.closed && this.queue.length > 0 && this.slots.length < this.options.size) this.dispatch(this.startWorker(), this.queue.shift()!);
+  }
+}
+
+/** Worker threads by default: one per CPU but one, left for the event loop (pages, the database). */
+export function defaultSolveWorkers(): number {
+  return Math.max(1, os.availableParallelism() - 1);
+}
+
+let shared: SolvePool | null = null;
+
+/** The server's pool, sized from SOLVE_WORKERS, SOLVE_QUEUE_LIMIT and SOLVE_TIMEOUT_SECONDS on first use. */
+export function solvePool(): SolvePool {
+  if (!shared) {
+    const settings = config();
+    shared = new SolvePool({
+      size: settings.SOLVE_WORKERS ?? defaultSolveWorkers(),
+      queueLimit: settings.SOLVE_QUEUE_LIMIT,
+      timeoutMs: settings.SOLVE_TIMEOUT_SECONDS * 1000,
+    });
+  }
+  return shared;
+}
+
+/** Tests put a pool of their own in place (null: the next use builds one from the configuration). */
+export function setSolvePool(pool: SolvePool | null): SolvePool | null {
+  const previous = shared;
+  shared = pool;
+  return previous;
+}
