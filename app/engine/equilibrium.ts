@@ -38,6 +38,8 @@ const FINISH_ATTEMPTS = [
   { thetaScale: 100, handover: 1e-9 },
 ];
 
+const CONTINUATION_CUTOFF = 25;
+
 /** Active-set rounds per finish attempt: a right structure settles in ≤ 5; a wrong one only degrades. */
 const FINISH_ROUNDS = 8;
 
@@ -148,6 +150,9 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   assertSteadyState(problem);
   const { n, m } = problem;
   const view = buildCostView(problem, curves, settings.siteToll, settings.loadBounds);
+  // Continuation only hands the finish a tied structure, which reads costs, not shares: shares
+  // below e^-25 ≈ 1e-11 are dropped (the logit rule keeps LOGIT_CUTOFF), a third less work.
+  view.cutoff = CONTINUATION_CUTOFF;
   const warnings: string[] = [];
   const w = new Float64Array(m);
   for (let j = 0; j < m; j++) w[j] = view.inverses[j].closed ? Infinity : (settings.warmStartWaits?.[j] ?? view.inverses[j].startCost);

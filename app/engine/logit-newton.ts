@@ -20,7 +20,7 @@
  * always decreases ‖R‖₂ because it is exact for the symmetric Jacobian.
  *
  * Pruning: an option more than 40/θ weeks dearer than a source's cheapest carries a share below
- * e^{-40} ≈ 4e-18 and is skipped, so each source touches only the few sites that can be near
+ * e^{-40} ≈ 4e-18 and is skipped (25/θ during continuation, see `CostView.cutoff`), so each source touches only the few sites that can be near
  * its cheapest; H is assembled from those alone (work Σ_i K_i², K_i the kept options).
  */
 import { logitBalkingShare } from "./outside-option";
@@ -43,6 +43,8 @@ export interface CostView {
   /** Inverse of each site's cost curve (wait for choice, marginal cost for the optimum). */
   inverses: SiteInverse[];
   totalDemand: number;
+  /** Options dearer than a source's cheapest by more than cutoff/θ are dropped. Default LOGIT_CUTOFF. */
+  cutoff?: number;
 }
 
 /** Buffers reused across Newton iterations (allocated once per solve). */
@@ -98,10 +100,10 @@ export class LogitWorkspace {
 export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws: LogitWorkspace): number {
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
   const lists = nearestSites(pairCost, n, m);
-  const { sites: listed, count, bound, perSource } = lists;
+  const { sites: listed, costs: listedCost, count, bound, perSource } = lists;
   let lowestSiteCost = Infinity;
   for (let j = 0; j < m; j++) if (w[j] < lowestSiteCost) lowestSiteCost = w[j];
-  const width = LOGIT_CUTOFF / theta;
+  const width = (view.cutoff ?? LOGIT_CUTOFF) / theta;
   ws.inflow.fill(0);
   let kept = 0;
   for (let i = 0; i < n; i++) {
@@ -113,10 +115,13 @@ export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws
     const row = i * m;
     const base = i * perSource;
     const listLength = count[i];
+    // The list is in increasing pair cost and no site costs less than lowestSiteCost, so once
+    // lowestSiteCost + pair cost reaches the cheapest so far, no later entry can be cheaper.
     let cheapest = Infinity;
     for (let k = 0; k < listLength; k++) {
-      const j = listed[base + k];
-      const g = w[j] + pairCost[row + j];
+      const c = listedCost[base + k];
+      if (lowestSiteCost + c >= cheapest) break;
+      const g = w[listed[base + k]] + c;
       if (g < cheapest) cheapest = g;
     }
     // Sites off the list cost at least lowestSiteCost + bound: scan the row only if that could matter.
@@ -132,16 +137,30 @@ export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws
     const limit = cheapest + width;
     let sum = 0;
     const first = kept;
-    const total = scanRow ? m : listLength;
-    for (let k = 0; k < total; k++) {
-      const j = scanRow ? k : listed[base + k];
-      const g = w[j] + pairCost[row + j];
-      if (g <= limit) {
-        const weight = Math.exp(-theta * (g - cheapest));
-        ws.columns[kept] = j;
-        ws.shares[kept] = weight;
-        sum += weight;
-        kept++;
+    if (scanRow) {
+      for (let j = 0; j < m; j++) {
+        const g = w[j] + pairCost[row + j];
+        if (g <= limit) {
+          const weight = Math.exp(-theta * (g - cheapest));
+          ws.columns[kept] = j;
+          ws.shares[kept] = weight;
+          sum += weight;
+          kept++;
+        }
+      }
+    } else {
+      for (let k = 0; k < listLength; k++) {
+        const c = listedCost[base + k];
+        if (lowestSiteCost + c > limit) break;
+        const j = listed[base + k];
+        const g = w[j] + c;
+        if (g <= limit) {
+          const weight = Math.exp(-theta * (g - cheapest));
+          ws.columns[kept] = j;
+          ws.shares[kept] = weight;
+          sum += weight;
+          kept++;
+        }
       }
     }
     const inclusive = cheapest - Math.log(sum) / theta;
@@ -320,24 +339,41 @@ export function logitNewton(
     let alpha = largest > 1 ? 1 / largest : 1;
     // Line search on the concave dual Ψ (whose gradient is R) through its slope along the step,
     // φ'(α) = R(w + αΔ)·Δ, which falls as α grows. The Newton (or any CG) direction climbs:
-    // φ'(0) = RᵀΔ > 0. A step is taken once the slope has not turned strongly negative (a strong
-    // Wolfe curvature condition); an overshoot is cut back by a secant on φ'. One evaluation per
-    // iteration is the rule, and inexact directions need no accurate solve to be accepted.
+    // φ'(0) = RᵀΔ > 0. A step is taken when |φ'(α)| ≤ φ'(0)/2 (a strong Wolfe curvature
+    // condition), or when the full step still climbs. An overshoot brackets the maximiser of φ
+    // and the bracket shrinks by secants on φ' (regula falsi, kept 5% inside the bracket): accepting
+    // the first step that merely did not overshoot took hundreds of 5% steps at moderate θ, where
+    // the full step overshoots by far. Inexact directions need no accurate solve to be accepted.
     let slope0 = 0;
     for (let j = 0; j < m; j++) if (ws.step[j] !== 0) slope0 += ws.residual[j] * ws.step[j];
     let accepted = false;
     if (slope0 > 0) {
+      let low = 0;
+      let lowSlope = slope0;
+      let high = Infinity;
+      let highSlope = 0;
       for (let attempt = 0; attempt < 40; attempt++) {
         for (let j = 0; j < m; j++) ws.trial[j] = w[j] + alpha * ws.step[j];
         evaluateLogit(view, theta, ws.trial, ws);
         let slope = 0;
         for (let j = 0; j < m; j++) if (ws.step[j] !== 0) slope += ws.residual[j] * ws.step[j];
-        if (slope >= -0.5 * slope0) {
+        const overshoot = slope < -0.5 * slope0;
+        const short = slope > 0.5 * slope0 && high < Infinity;
+        if (!overshoot && !short) {
           w.set(ws.trial);
           accepted = true;
           break;
         }
-        alpha *= Math.max(slope0 / (slope0 - slope), 0.05);
+        if (overshoot) {
+          high = alpha;
+          highSlope = slope;
+        } else {
+          low = alpha;
+          lowSlope = slope;
+        }
+        const width = high - low;
+        const secant = low + (width * lowSlope) / (lowSlope - highSlope);
+        alpha = Math.min(Math.max(secant, low + 0.05 * width), high - 0.05 * width);
       }
     }
     if (!accepted) {

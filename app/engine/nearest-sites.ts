@@ -12,8 +12,10 @@
 const cache = new WeakMap<Float64Array, NearestSites>();
 
 export interface NearestSites {
-  /** Sites per source (n·K), the K lowest pair costs, unordered. */
+  /** Sites per source (n·K), the K lowest pair costs, in increasing order of pair cost. */
   sites: Int32Array;
+  /** The pair cost of each listed site (n·K), beside it, so a scan reads memory in order. */
+  costs: Float64Array;
   count: Int32Array;
   /** Largest pair cost in each source's list; Infinity when the list holds every allowed site. */
   bound: Float64Array;
@@ -27,6 +29,7 @@ export function nearestSites(pairCost: Float64Array, n: number, m: number): Near
   if (cached) return cached;
   const perSource = Math.min(m, NEAREST_LIST_SIZE);
   const sites = new Int32Array(n * perSource);
+  const costs = new Float64Array(n * perSource);
   const count = new Int32Array(n);
   const bound = new Float64Array(n);
   const scratch = new Float64Array(m);
@@ -40,6 +43,7 @@ export function nearestSites(pairCost: Float64Array, n: number, m: number): Near
       for (let j = 0; j < m; j++) if (pairCost[row + j] < Infinity) sites[base + k++] = j;
       count[i] = k;
       bound[i] = Infinity;
+      sortList(sites, costs, pairCost, row, base, k);
       continue;
     }
     const threshold = kthSmallest(scratch, allowed, perSource - 1);
@@ -48,10 +52,27 @@ export function nearestSites(pairCost: Float64Array, n: number, m: number): Near
     for (let j = 0; j < m && k < perSource; j++) if (pairCost[row + j] === threshold) sites[base + k++] = j;
     count[i] = k;
     bound[i] = threshold;
+    sortList(sites, costs, pairCost, row, base, k);
   }
-  const result = { sites, count, bound, perSource };
+  const result = { sites, costs, count, bound, perSource };
   cache.set(pairCost, result);
   return result;
+}
+
+/** Orders one source's list by pair cost (insertion sort: lists are short) and fills its costs. */
+function sortList(sites: Int32Array, costs: Float64Array, pairCost: Float64Array, row: number, base: number, length: number): void {
+  for (let a = 0; a < length; a++) {
+    const site = sites[base + a];
+    const cost = pairCost[row + site];
+    let b = a - 1;
+    while (b >= 0 && costs[base + b] > cost) {
+      sites[base + b + 1] = sites[base + b];
+      costs[base + b + 1] = costs[base + b];
+      b--;
+    }
+    sites[base + b + 1] = site;
+    costs[base + b + 1] = cost;
+  }
 }
 
 /** Hoare's selection (quickselect) on values[0..length): the k-th smallest (0-based). Reorders values. */
