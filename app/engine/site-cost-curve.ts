@@ -135,12 +135,14 @@ export class SiteInverse {
       // Converged when the bracket or the residual is at rounding level.
       if (Math.abs(value) <= 4e-16 * w || hi - lo <= 4e-16 * curve.capacity) break;
       const slope = curve.slope(x);
-      let next = slope > 0 && Number.isFinite(slope) ? x - value / slope : NaN;
+      const newton = slope > 0 && Number.isFinite(slope) ? x - value / slope : NaN;
+      // A Newton step at rounding level ends it. (Tested before the bracket: such a step may
+      // round onto the bracket's end, and bisecting a nearly flat cost from there took dozens
+      // of steps; the cost's own rounding also keeps |value| from reaching 4e-16·w.)
+      if (Math.abs(newton - x) <= 1e-15 * curve.capacity) break;
       // Convex increasing cost: Newton from the right of the root stays right; from the left it
       // may overshoot, possibly past capacity — then fall back to bisection.
-      if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
-      if (next === x) break;
-      x = next;
+      x = newton > lo && newton < hi ? newton : 0.5 * (lo + hi);
     }
     this.guess = x;
     return x;
