@@ -30,6 +30,8 @@ import { reservationRange } from "./outside-option";
 const TIE_WIDTH = 23;
 /** Shares below this at a failed group solve mark pairs that carry no flow. */
 const VANISHING_SHARE = 1e-9;
+/** Newton steps a group gets before a vanishing share stops its solve (for pruning and a re-solve). */
+const VANISHING_AFTER = 4;
 
 export interface FinishOutcome {
   ok: boolean;
@@ -358,7 +360,11 @@ function solveGroup(
   const tolerance = 1e-15 * Math.max(scale, 1e-300);
   const acceptable = 1e-11 * Math.max(scale, 1e-300);
 
+  // The smallest tied share at the last evaluation: one that has all but vanished marks a tie the
+  // solution does not have, and Newton would spend its whole budget driving its η to infinity.
+  let smallestShare = 1;
   const evaluate = (withJacobian: boolean): number => {
+    smallestShare = 1;
     residual.fill(0);
     if (withJacobian) jacobian.fill(0);
     for (let k = 0; k < size; k++) {
@@ -382,7 +388,11 @@ function solveGroup(
         sum += e;
       }
       const { served, slope } = t.outsideTie ? { served: view.demand[i], slope: 0 } : servedAt(view, i, group.level + sourceOffset[i]);
-      for (let a = 0; a < count; a++) share[a] /= sum;
+      for (let a = 0; a < count; a++) {
+        share[a] /= sum;
+        if (share[a] < smallestShare) smallestShare = share[a];
+      }
+      if (t.outsideTie) smallestShare = Math.min(smallestShare, Math.exp(smallest) / sum);
       for (let a = 0; a < count; a++) {
         const ka = member[first + a];
         const pa = share[a];
@@ -408,6 +418,7 @@ function solveGroup(
     let largest = 0;
     for (let k = 0; k < size; k++) largest = Math.max(largest, Math.abs(residual[k]));
     if (largest <= tolerance) return { ok: true, iterations };
+    if (iterations >= VANISHING_AFTER && smallestShare < VANISHING_SHARE && largest > acceptable) return { ok: false, iterations };
     for (let k = 0; k < size; k++) step[k] = -residual[k];
     if (!luSolveInPlace(jacobian, step, unknowns)) return { ok: false, iterations };
     // η moves at most 8 per step (a factor e^8 in a share); the line search does the rest.
