@@ -6,7 +6,7 @@
  * Everyone in the organisation reads; planners and administrators edit. Every change goes through
  * the JSON API (`/api/v1/o/:org/…`) with fetchers, so the page and outside callers share one path.
  */
-import { useCallback, useEffect, useMemo, useState } from "react";
+import { memo, useCallback, useDeferredValue, useEffect, useMemo, useState } from "react";
 import { Link, useFetcher, useNavigate } from "react-router";
 import type { FeatureCollection } from "geojson";
 import { EDITOR_ROLES } from "~/auth/api-guards.server";
@@ -17,9 +17,10 @@ import { PlanningCautions } from "~/components/planning-cautions";
 import { RegionMap, type MapFlow, type MapPractice, type MapSite, type PracticeShading } from "~/components/region-map";
 import { CSV_FILE_NAMES } from "~/models/csv-import";
 import { getRegionMap } from "~/models/region-maps.server";
-import { RULE_LABELS, rulesIn, slimResult, type ResultDocument } from "~/models/result-document";
+import { RULE_LABELS, rulesIn, type ResultDocument } from "~/models/result-document";
 import { wholeRunAccess } from "~/models/publishing.server";
-import { getRun, listRuns } from "~/models/runs.server";
+import { listRuns } from "~/models/runs.server";
+import { getWorkspaceRun } from "~/models/workspace-run.server";
 import { addSite, moveSite, practiceDemand, removeSite, type ScenarioDoc } from "~/models/scenario-document";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
 import { AssumptionsList } from "./scenario-workspace/assumptions";
@@ -38,10 +39,12 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   if (!scenario) throw notFound();
   const [document, runs, region] = await Promise.all([exportScenario(db, organisation.id, id), listRuns(organisation.id, id, access), getRegionMap(db, organisation.id)]);
   const runParam = new URL(request.url).searchParams.get("run");
-  const selectedId = runParam && /^\d+$/.test(runParam) ? Number(runParam) : runs[0]?.id;
-  // The page compares rules on the stationary result; the period-by-period outlook is another screen.
-  const run = selectedId ? await getRun(organisation.id, selectedId, { periods: false, access }) : null;
-  if (runParam && (!run || run.scenarioId !== id)) throw notFound("There is no such run of this scenario.");
+  // The listing holds only this scenario's runs that the member may open.
+  const wanted = runParam && /^\d+$/.test(runParam) ? Number(runParam) : null;
+  const run = runParam ? runs.find((entry) => entry.id === wanted) : runs[0];
+  if (runParam && !run) throw notFound("There is no such run of this scenario.");
+  const opened = run ? await getWorkspaceRun(organisation.id, run, access) : null;
+  if (run && !opened) throw notFound("There is no such run of this scenario.");
   return {
     organisation: { slug: organisation.slug, name: organisation.name },
     canEdit: EDITOR_ROLES.includes(membership.role),
@@ -56,7 +59,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     },
     document: document as ScenarioDoc,
     runs: runs.map((entry) => ({ ...entry, createdAt: entry.createdAt.toISOString() })),
-    run: run
+    run: run && opened
       ? {
           id: run.id,
           label: run.label,
@@ -64,8 +67,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
           createdByLogin: run.createdByLogin,
           converged: run.converged,
           durationMs: run.durationMs,
-          input: run.input as ScenarioDoc,
-          result: slimResult(run.result as unknown as ResultDocument),
+          input: opened.input as ScenarioDoc,
+          result: opened.result,
         }
       : null,
     region: region as FeatureCollection | null,
@@ -73,6 +76,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 }
 
 type Tab = "practices" | "sites" | "capacities" | "lines" | "import";
+
+// Re-rendered only when their own props change (see the handlers in `Workspace`).
+const MemoRegionMap = memo(RegionMap);
+const MemoPracticesTable = memo(PracticesTable);
+const MemoSitesTable = memo(SitesTable);
+const MemoCapacitiesTable = memo(CapacitiesTable);
+const MemoServiceLinesTable = memo(ServiceLinesTable);
+const MemoImportPanel = memo(ImportPanel);
 type Shading = "balking" | "wait";
 
 interface ApiReply {
@@ -104,22 +115,30 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
     if (runner.state === "idle" && runner.data?.run) navigate(`?run=${runner.data.run.id}`, { replace: false });
   }, [runner.state, runner.data, navigate]);
 
+  // Stable handlers and memoised props: a what-if answer re-renders the comparison and the map,
+  // not the input tables (thousands of cells) that did not change.
+  const submitSave = saver.submit;
   const save = useCallback(
     (next: ScenarioDoc) => {
       setPending(next);
-      saver.submit(next as never, { method: "put", action: api, encType: "application/json" });
+      submitSave(next as never, { method: "put", action: api, encType: "application/json" });
     },
-    [saver, api],
+    [submitSave, api],
   );
+  const removeSiteAndSave = useCallback((siteId: string) => save(removeSite(doc, siteId)), [save, doc]);
+  const moveSiteAndSave = useCallback((siteId: string, lat: number, lon: number) => save(moveSite(doc, siteId, lat, lon)), [save, doc]);
+  const addSiteAndSave = useCallback((lat: number, lon: number) => save(addSite(doc, { lat, lon }).doc), [save, doc]);
 
   const showWhatIf = useCallback((result: ResultDocument | null, elapsedMs?: number) => setWhatIf(result ? { result, elapsedMs } : null), []);
   const shown: ResultDocument | null = whatIf?.result ?? run?.result ?? null;
   const availableRules = shown ? rulesIn(shown) : [];
   const activeRule = availableRules.includes(rule) ? rule : (availableRules[0] ?? "choice");
-  const selectedLines = lineId ? [lineId] : doc.serviceLines.map((line) => line.id);
+  const selectedLines = useMemo(() => (lineId ? [lineId] : doc.serviceLines.map((line) => line.id)), [lineId, doc.serviceLines]);
 
-  const mapData = useMemo(() => buildMapData(doc, shown, activeRule, selectedLines, shading), [doc, shown, activeRule, selectedLines, shading]);
-  const siteNames = Object.fromEntries(doc.providers.map((site) => [site.id, site.name ?? site.id]));
+  // Like the comparison's charts, the map follows a new result in a second, interruptible render.
+  const mapResult = useDeferredValue(shown);
+  const mapData = useMemo(() => buildMapData(doc, mapResult, activeRule, selectedLines, shading), [doc, mapResult, activeRule, selectedLines, shading]);
+  const siteNames = useMemo(() => Object.fromEntries(doc.providers.map((site) => [site.id, site.name ?? site.id])), [doc.providers]);
   const saveError = saver.state === "idle" ? saver.data?.error : undefined;
   const runError = runner.state === "idle" ? runner.data?.error : undefined;
 
@@ -286,15 +305,15 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
             )}
             {whatIf && <span className="rounded bg-warn-soft px-2 py-0.5 text-xs font-semibold text-warn">showing the what-if, not saved</span>}
           </div>
-          <RegionMap
+          <MemoRegionMap
             region={region}
             practices={mapData.practices}
             sites={mapData.sites}
             flows={mapData.flows}
             shading={mapData.shading}
             editable={canEdit}
-            onMoveSite={canEdit ? (siteId, lat, lon) => save(moveSite(doc, siteId, lat, lon)) : undefined}
-            onAddSite={canEdit ? (lat, lon) => save(addSite(doc, { lat, lon }).doc) : undefined}
+            onMoveSite={canEdit ? moveSiteAndSave : undefined}
+            onAddSite={canEdit ? addSiteAndSave : undefined}
           />
         </div>
         <aside aria-labelledby="assumptions-heading" className="rounded border border-rule bg-white p-4">
@@ -339,11 +358,11 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
           ))}
         </div>
         <div role="tabpanel">
-          {tab === "practices" && <PracticesTable doc={doc} editable={canEdit} onChange={save} />}
-          {tab === "sites" && <SitesTable doc={doc} editable={canEdit} onChange={save} onRemove={(siteId) => save(removeSite(doc, siteId))} />}
-          {tab === "capacities" && <CapacitiesTable doc={doc} editable={canEdit} onChange={save} />}
-          {tab === "lines" && <ServiceLinesTable doc={doc} editable={canEdit} onChange={save} />}
-          {tab === "import" && canEdit && <ImportPanel doc={document} importUrl={`${api}/import`} />}
+          {tab === "practices" && <MemoPracticesTable doc={doc} editable={canEdit} onChange={save} />}
+          {tab === "sites" && <MemoSitesTable doc={doc} editable={canEdit} onChange={save} onRemove={removeSiteAndSave} />}
+          {tab === "capacities" && <MemoCapacitiesTable doc={doc} editable={canEdit} onChange={save} />}
+          {tab === "lines" && <MemoServiceLinesTable doc={doc} editable={canEdit} onChange={save} />}
+          {tab === "import" && canEdit && <MemoImportPanel doc={document} importUrl={`${api}/import`} />}
         </div>
       </section>
 

@@ -12,7 +12,9 @@
  *      the workspace page fetched one request at a time while that load runs (solves run on worker
  *      threads, so the page should stay near its idle figure in (a));
  *  (c) a what-if re-solve in the browser's Web Worker: from a slider change to the page showing the
- *      new result (target: under 100 ms), and the worker's solve alone in Node as a cross-check.
+ *      new result — the comparison and map rendered and the next frame drawn (target: under 100 ms);
+ *      the worker round trip the page measures itself, the first what-if after the page loaded, and
+ *      the worker's solve alone in Node as a cross-check.
  *
  * Baselines measured in the same run on the same server: a static asset and the sign-in page
  * (latency floor of the HTTP stack and of a small server render), and one solve at a time.
@@ -194,10 +196,12 @@ function recordLoad(label: string, outcome: LoadResult) {
 
 /**
  * Moves the willingness-to-travel slider the way a hand does (an input event React hears) and
- * waits for the status to report the new result. Returns the wall time from the change to the
- * status update, and the worker round trip the page itself measured.
+ * waits for the status to report the new result, then for the next frame to be drawn. The page
+ * renders the status, the comparison and the map's data from the answer in one commit, so the
+ * status changing means the result is in the page. Returns the wall time from the change to that
+ * frame, and the worker round trip the page itself measured.
  */
-async function whatIfOnce(page: Page, value: number): Promise<{ wallMs: number; workerMs: number }> {
+async function whatIfOnce(page: Page, value: number): Promise<{ wallMs: number; workerMs: number; settledMs: number }> {
   return page.evaluate(async (kmPerWeek) => {
     const slider = document.querySelector<HTMLInputElement>('input[aria-label="Willingness to travel, km per week"]');
     const status = document.querySelector('[data-testid="what-if-status"]');
@@ -206,7 +210,7 @@ async function whatIfOnce(page: Page, value: number): Promise<{ wallMs: number; 
     const started = performance.now();
     // Each answer carries the worker request's id (data-solved): wait for a newer one than now.
     const before = status.getAttribute("data-solved") ?? "";
-    const done = new Promise<{ wallMs: number; workerMs: number }>((resolve, reject) => {
+    const done = new Promise<{ wallMs: number; workerMs: number; settledMs: number }>((resolve, reject) => {
       const timer = setTimeout(() => {
         observer.disconnect();
         reject(new Error(`No what-if result within 30 s (status: ${status.textContent})`));
@@ -217,7 +221,15 @@ async function whatIfOnce(page: Page, value: number): Promise<{ wallMs: number; 
         if (solved === "" || solved === before || !match) return;
         observer.disconnect();
         clearTimeout(timer);
-        resolve({ wallMs: performance.now() - started, workerMs: Number(match[1]) });
+        // A task queued from the next animation frame runs after that frame's layout and paint. The
+        // charts and the map follow in a deferred render: the first idle moment after that frame
+        // is when everything the answer changed has been drawn.
+        requestAnimationFrame(() =>
+          setTimeout(() => {
+            const wallMs = performance.now() - started;
+            requestIdleCallback(() => resolve({ wallMs, workerMs: Number(match[1]), settledMs: performance.now() - started }), { timeout: 5_000 });
+          }, 0),
+        );
       };
       const observer = new MutationObserver(check);
       observer.observe(status, { attributes: true, childList: true, subtree: true, characterData: true });
@@ -308,15 +320,22 @@ async function main() {
     await page.getByTestId("what-if-panel").scrollIntoViewIfNeeded();
     const wall: number[] = [];
     const worker: number[] = [];
+    const settled: number[] = [];
     const values = [16, 14];
-    await whatIfOnce(page, 20); // warm-up: the worker's module loads on first use
+    // A hand reaches the slider before dragging it; the panel warms the engine up on that.
+    await page.hover('input[aria-label="Willingness to travel, km per week"]');
+    await page.waitForTimeout(300);
+    const first = await whatIfOnce(page, 20);
+    record("(c) what-if: first after the page loaded", [first.wallMs], `pointer on the slider 300 ms before; worker round trip ${first.workerMs} ms`, "");
     for (let i = 0; i < Math.min(SAMPLES, 20); i++) {
       const outcome = await whatIfOnce(page, values[i % 2]);
       wall.push(outcome.wallMs);
       worker.push(outcome.workerMs);
+      settled.push(outcome.settledMs);
     }
-    record("(c) what-if: worker round trip (page's own figure)", worker, "5 rules, stationary", verdict(quantile([...worker].sort((a, b) => a - b), 0.5), 100));
-    record("(c) what-if: slider change → result shown", wall, "includes the panel's 120 ms settle delay", "");
+    record("(c) what-if: worker round trip (page's own figure)", worker, "5 rules, stationary", "");
+    record("(c) what-if: slider change → result shown (next frame)", wall, "status and comparison tables drawn", verdict(quantile([...wall].sort((a, b) => a - b), 0.5), 100));
+    record("(c) what-if: slider change → charts and map drawn too", settled, "first idle moment after the deferred render", "");
 
     const parsed = JSON.parse(demo) as unknown;
     const nodeTimes: number[] = [];

@@ -4,18 +4,25 @@
  * inflow and utilisation under each rule, with charts — and beside them the assumptions, the data
  * date and the planning cautions, so no figure is read without its context.
  */
-import { useMemo } from "react";
+import { memo, useDeferredValue, useMemo } from "react";
 import { PlanningCautions } from "~/components/planning-cautions";
 import { SiteBarChart, RULE_COLOURS, type SiteChartRow } from "~/components/rule-charts";
-import { RULE_LABELS, siteRows, summariseRules, UTILISATION_WARNING, type ResultDocument, type RuleSummary } from "~/models/result-document";
+import { RULE_LABELS, rulesIn, siteRows, summariseRules, UTILISATION_WARNING, type ResultDocument, type RuleSummary } from "~/models/result-document";
 import type { ScenarioDoc } from "~/models/scenario-document";
 import { AssumptionsList } from "./assumptions";
 
+// One formatter per number of decimals: building an Intl.NumberFormat per cell is slow.
+const fixedFormatters = new Map<number, Intl.NumberFormat>();
+
 function fmt(value: number | null | undefined, decimals = 2): string {
+  if (value === null || value === undefined || !Number.isFinite(value)) return "–";
   // Fixed decimals per measure, so a column of figures lines up.
-  return value === null || value === undefined || !Number.isFinite(value)
-    ? "–"
-    : value.toLocaleString("en-GB", { minimumFractionDigits: decimals, maximumFractionDigits: decimals });
+  let formatter = fixedFormatters.get(decimals);
+  if (!formatter) {
+    formatter = new Intl.NumberFormat("en-GB", { minimumFractionDigits: decimals, maximumFractionDigits: decimals });
+    fixedFormatters.set(decimals, formatter);
+  }
+  return formatter.format(value);
 }
 function pct(value: number | null | undefined): string {
   return value === null || value === undefined || !Number.isFinite(value) ? "–" : `${(value * 100).toFixed(1)}%`;
@@ -31,6 +38,28 @@ const METRICS: Array<{ label: string; unit: string; meaning: string; value: (row
   { label: "Balked", unit: "referrals/week", meaning: "patients who leave for private care (or go without)", value: (r) => fmt(r.balkedPerWeek, 1) },
   { label: "Equity: cost spread", unit: "weeks-equivalent", meaning: "highest minus lowest mean cost per referral across practices", value: (r) => fmt(r.costSpread) },
 ];
+
+const MemoSiteBarChart = memo(SiteBarChart);
+
+/** Mean wait and utilisation per site and rule on `lineId`, as the charts take them. */
+function chartData(result: ResultDocument, lineId: string | null): { rules: string[]; waits: SiteChartRow[]; utilisation: SiteChartRow[] } {
+  const rules = rulesIn(result);
+  const waits: SiteChartRow[] = [];
+  const utilisation: SiteChartRow[] = [];
+  if (lineId) {
+    for (const row of siteRows(result, [lineId])) {
+      const wait: SiteChartRow = { site: row.site };
+      const share: SiteChartRow = { site: row.site };
+      for (const rule of rules) {
+        wait[rule] = row.byRule[rule]?.meanWaitWeeks ?? 0;
+        share[rule] = row.byRule[rule]?.utilisation ?? 0;
+      }
+      waits.push(wait);
+      utilisation.push(share);
+    }
+  }
+  return { rules, waits, utilisation };
+}
 
 export function RuleComparison({
   result,
@@ -52,19 +81,10 @@ export function RuleComparison({
   const deciles = [...new Set(summaries.flatMap((summary) => summary.costByDecile.map((entry) => entry.decile)))].sort((a, b) => a - b);
   const busy = summaries.flatMap((summary) => summary.busySites.map((site) => ({ ...site, rule: summary.rule })));
   const chartLine = lineIds.length === 1 ? lineIds[0] : null;
-  const chartRows = chartLine
-    ? sites
-        .filter((row) => row.line === chartLine)
-        .map((row) => {
-          const waits: SiteChartRow = { site: row.site };
-          const utilisation: SiteChartRow = { site: row.site };
-          for (const rule of rules) {
-            waits[rule] = row.byRule[rule]?.meanWaitWeeks ?? 0;
-            utilisation[rule] = row.byRule[rule]?.utilisation ?? 0;
-          }
-          return { waits, utilisation };
-        })
-    : [];
+  // The charts (the slowest part to draw) follow the tables in a second, interruptible render, so
+  // a what-if's figures show without waiting for them; the charts catch up a frame or so later.
+  const chartResult = useDeferredValue(result);
+  const charts = useMemo(() => chartData(chartResult, chartLine), [chartResult, chartLine]);
   const lineName = (id: string) => doc.serviceLines.find((line) => line.id === id)?.name ?? id;
 
   return (
@@ -202,14 +222,14 @@ export function RuleComparison({
 
         {chartLine ? (
           <div className="grid gap-4 xl:grid-cols-2">
-            <SiteBarChart title={`Mean wait by site, ${lineName(chartLine)}`} unit="weeks" rows={chartRows.map((row) => row.waits)} rules={rules} ruleLabels={RULE_LABELS} />
-            <SiteBarChart
+            <MemoSiteBarChart title={`Mean wait by site, ${lineName(chartLine)}`} unit="weeks" rows={charts.waits} rules={charts.rules} ruleLabels={RULE_LABELS} />
+            <MemoSiteBarChart
               title={`Utilisation by site, ${lineName(chartLine)}`}
               unit="share of capacity"
               percent
               warningAt={UTILISATION_WARNING}
-              rows={chartRows.map((row) => row.utilisation)}
-              rules={rules}
+              rows={charts.utilisation}
+              rules={charts.rules}
               ruleLabels={RULE_LABELS}
             />
           </div>

@@ -4,10 +4,11 @@
  * run's in the comparison and on the map until the planner goes back to the run; a what-if worth
  * keeping is saved as a copy of the scenario (the original is never changed here).
  */
-import { useEffect, useMemo, useState } from "react";
+import { useCallback, useEffect, useMemo, useState } from "react";
 import { useFetcher, useNavigate } from "react-router";
 import { isResultDocument, type ResultDocument } from "~/models/result-document";
 import { applyWhatIf, baselineWhatIf, type ScenarioDoc, type WhatIf } from "~/models/scenario-document";
+import type { WorkerResponse } from "~/engine/worker";
 import { useEngineWorker } from "./use-engine-worker";
 
 interface SaveReply {
@@ -31,38 +32,37 @@ export function WhatIfPanel({
 }) {
   const [whatIf, setWhatIf] = useState<WhatIf>(() => baselineWhatIf(doc));
   const [active, setActive] = useState(false);
-  const { state, solve, reset } = useEngineWorker();
+  // The answer goes up in the same task as the panel's status, so both show in one render.
+  const showAnswer = useCallback(
+    (response: WorkerResponse, elapsedMs: number) =>
+      onResult(response.ok && isResultDocument(response.result) ? (response.result as unknown as ResultDocument) : null, elapsedMs),
+    [onResult],
+  );
+  const { state, solve, warmUp, reset } = useEngineWorker(showAnswer);
   const adjusted = useMemo(() => applyWhatIf(doc, whatIf), [doc, whatIf]);
   const fetcher = useFetcher<SaveReply>();
   const navigate = useNavigate();
   const [name, setName] = useState(`${doc.name ?? "Scenario"} — what-if`);
 
   useEffect(() => {
-    if (!active) return;
-    // A short pause lets a dragged slider settle before the engine starts.
-    const timer = setTimeout(() => solve(adjusted), 120);
-    return () => clearTimeout(timer);
-  }, [active, adjusted, solve]);
-
-  useEffect(() => {
-    if (state.status !== "done") return;
-    if (state.response.ok && isResultDocument(state.response.result)) onResult(state.response.result as unknown as ResultDocument, state.elapsedMs);
-    else onResult(null);
-  }, [state, onResult]);
-
-  useEffect(() => {
     if (fetcher.state === "idle" && fetcher.data?.url) navigate(fetcher.data.url);
   }, [fetcher.state, fetcher.data, navigate]);
 
+  // Each change goes to the worker straight from the input event: the worker queue keeps only the
+  // newest position while a solve runs, so no settling delay is needed.
   const set = (change: Partial<WhatIf>) => {
+    const next = { ...whatIf, ...change };
     setActive(true);
-    setWhatIf((current) => ({ ...current, ...change }));
+    setWhatIf(next);
+    solve(applyWhatIf(doc, next));
   };
   const extra = whatIf.extraTeams ?? { siteId: doc.providers[0]?.id ?? "", lineId: doc.serviceLines[0]?.id ?? "", teams: 0 };
   const failure = state.status === "done" && !state.response.ok ? state.response : null;
 
   return (
-    <div className="space-y-4" data-testid="what-if-panel">
+    // Reaching for a slider (pointer or keyboard) warms the engine up: a cold first solve takes
+    // several times longer than the next ones.
+    <div className="space-y-4" data-testid="what-if-panel" onPointerEnter={() => warmUp(adjusted)} onFocus={() => warmUp(adjusted)}>
       <div className="grid gap-4 md:grid-cols-3">
         <label className="text-sm">
           <span className="font-semibold">Willingness to travel (κ)</span>
