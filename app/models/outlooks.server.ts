@@ -5,16 +5,18 @@
  * the viewer may see (`publishing.server.ts`).
  *
  * Re-solving work (sensitivity curves, the advisor) takes from a fraction of a second to a few
- * seconds on a region of the demo's size; runs never change, so results are kept in a small
- * in-memory cache keyed by the run (or the scenario's last change) and the options.
+ * seconds on a region of the demo's size, so it runs on the solve pool's worker threads; runs never
+ * change, so results are kept in a small in-memory cache keyed by the run (or the scenario's last
+ * change) and the options.
  */
-import { adviseCapacity, type CapacityAdvice, type CapacityAdvisorOptions } from "~/engine/capacity-advisor";
+import type { CapacityAdvice, CapacityAdvisorOptions } from "~/engine/capacity-advisor";
 import { balkingOutlook, type BalkingOutlook, type BalkingOutlookOptions } from "~/engine/balking-outlook";
 import { parseScenario, type Scenario } from "~/engine/scenario";
-import { balkingSensitivity, type BalkingSensitivity, type SensitivityOptions } from "~/engine/sensitivity";
+import type { BalkingSensitivity, SensitivityOptions } from "~/engine/sensitivity";
 import { siteOutlook, type SiteOutlook, type SiteOutlookOptions } from "~/engine/site-outlook";
 import type { Membership } from "./organisations.server";
 import { canSeeSite, defaultRunId, getVisibleRun, listVisibleRuns, siteScope, type VisibleRunDetail } from "./publishing.server";
+import { solvePool } from "./solve-pool.server";
 
 export interface OutlookRun {
   run: VisibleRunDetail;
@@ -64,29 +66,41 @@ export function balkingOutlookFor(opened: OutlookRun, options: BalkingOutlookOpt
 }
 
 const CACHE_LIMIT = 24;
-const cache = new Map<string, unknown>();
+const cache = new Map<string, Promise<unknown>>();
 
-function remembered<T>(key: string, compute: () => T): T {
-  if (cache.has(key)) {
-    const value = cache.get(key) as T;
+/**
+ * The answer for `key`, computed once. The promise itself is kept, so requests arriving while the
+ * first is still solving share its answer; a failure (a busy server, say) is forgotten, not cached.
+ */
+function remembered<T>(key: string, compute: () => Promise<T>): Promise<T> {
+  const known = cache.get(key) as Promise<T> | undefined;
+  if (known) {
     // Re-insert: Map keeps insertion order, so the oldest entry is the least recently used.
     cache.delete(key);
-    cache.set(key, value);
-    return value;
+    cache.set(key, known);
+    return known;
   }
   const value = compute();
   cache.set(key, value);
+  value.catch(() => {
+    if (cache.get(key) === value) cache.delete(key);
+  });
   while (cache.size > CACHE_LIMIT) cache.delete(cache.keys().next().value as string);
   return value;
 }
 
-export function sensitivityFor(opened: OutlookRun, options: SensitivityOptions): BalkingSensitivity {
-  return remembered(`sensitivity:${opened.run.id}:${JSON.stringify(options)}`, () => balkingSensitivity(opened.scenario, options));
+/** Solved on a worker thread (`solve-pool.server.ts`); rejects with `SolvePoolError` when the server is busy. */
+export function sensitivityFor(opened: OutlookRun, options: SensitivityOptions): Promise<BalkingSensitivity> {
+  return remembered(`sensitivity:${opened.run.id}:${JSON.stringify(options)}`, () => solvePool().run("sensitivity", { document: opened.run.input, options }));
 }
 
-/** The advisor on a scenario document (a scenario as stored now, or a run's snapshot), keyed by `version`. */
-export function capacityAdviceFor(document: unknown, version: string, options: CapacityAdvisorOptions): CapacityAdvice {
-  return remembered(`advice:${version}:${JSON.stringify(options)}`, () => adviseCapacity(parseScenario(document), options));
+/**
+ * The advisor on a scenario document (a scenario as stored now, or a run's snapshot), keyed by
+ * `version`, solved on a worker thread; rejects with the engine's RangeError or NoSteadyStateError
+ * for options or a model it cannot take, and with `SolvePoolError` when the server is busy.
+ */
+export function capacityAdviceFor(document: unknown, version: string, options: CapacityAdvisorOptions): Promise<CapacityAdvice> {
+  return remembered(`advice:${version}:${JSON.stringify(options)}`, () => solvePool().run("advice", { document, options }));
 }
 
 /** What a page shows beside the figures (see `app/components/run-context.tsx`), as plain JSON. */

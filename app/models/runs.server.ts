@@ -13,10 +13,10 @@ import { runs, users } from "~/db/schema";
 import type { ScenarioResult } from "~/engine/solve-scenario";
 import { recordAudit } from "./audit.server";
 import { exportScenario, type ScenarioDocument } from "./scenarios.server";
-import type { SolveChoices, SolveOutcome } from "./solve-document";
+import type { SolveChoices, SolveJsonOutcome, SolveOutcome } from "./solve-document";
 import { solvePool, SolvePoolError } from "./solve-pool.server";
 
-export { solveDocument, type SolveChoices, type SolveOutcome } from "./solve-document";
+export { solveDocument, type SolveChoices, type SolveJsonOutcome, type SolveOutcome } from "./solve-document";
 
 export type RunRecord = typeof runs.$inferSelect;
 
@@ -46,26 +46,32 @@ export interface RunSummary {
   priceOfAnarchy: number | null;
 }
 
-/**
- * A solve on the server's worker pool: what `solveDocument` answers, or why the pool gave no answer
- * — 503 when every worker is busy and the queue is full (retry after `retryAfterSeconds`), 504 when
- * the solve ran past the time limit, 500 when its worker died.
- */
-export type PooledSolveOutcome =
-  | SolveOutcome
-  | { ok: false; status: 500 | 503 | 504; error: string; issues: { path: string; message: string }[]; retryAfterSeconds?: number };
+/** Why the pool gave no answer: every worker busy and the queue full (503), too slow (504), a worker died (500). */
+export type PoolRefusal = { ok: false; status: 500 | 503 | 504; error: string; issues: { path: string; message: string }[]; retryAfterSeconds?: number };
+
+/** A solve on the server's worker pool: what `solveDocument` answers, or the pool's refusal. */
+export type PooledSolveOutcome = SolveOutcome | PoolRefusal;
+
+function refusalOf(error: unknown): PoolRefusal {
+  if (error instanceof SolvePoolError) return { ok: false, status: error.status, error: error.message, issues: [], retryAfterSeconds: error.retryAfterSeconds };
+  throw error;
+}
 
 /**
  * Validates and solves an exchange-format document on a worker thread, so the web server keeps
  * answering other requests meanwhile; never throws for bad input or a busy server.
  */
 export async function solveDocumentInPool(input: unknown, choices: SolveChoices = {}): Promise<PooledSolveOutcome> {
-  try {
-    return await solvePool().run("solve", { input, choices: { rules: choices.rules, periods: choices.periods } });
-  } catch (error) {
-    if (error instanceof SolvePoolError) return { ok: false, status: error.status, error: error.message, issues: [], retryAfterSeconds: error.retryAfterSeconds };
-    throw error;
-  }
+  return solvePool()
+    .run("solve", { input, choices: { rules: choices.rules, periods: choices.periods } })
+    .catch(refusalOf);
+}
+
+/** `solveDocumentInPool` with the result as JSON text, for answering over HTTP without re-serialising. */
+export async function solveDocumentToJsonInPool(input: unknown, choices: SolveChoices = {}): Promise<SolveJsonOutcome | PoolRefusal> {
+  return solvePool()
+    .run("solveToJson", { input, choices: { rules: choices.rules, periods: choices.periods } })
+    .catch(refusalOf);
 }
 
 function summary(

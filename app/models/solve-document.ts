@@ -17,6 +17,9 @@ export type SolveOutcome =
   | { ok: true; result: ScenarioResult; durationMs: number }
   | { ok: false; status: 400 | 422; error: string; issues: { path: string; message: string }[] };
 
+/** `SolveOutcome` with the result already as JSON text, for answering over HTTP as it is. */
+export type SolveJsonOutcome = Exclude<SolveOutcome, { ok: true }> | { ok: true; resultJson: string; durationMs: number };
+
 export interface SolveChoices {
   /** Only these rules (default: every rule that applies). */
   rules?: RuleKey[];
@@ -55,4 +58,14 @@ export function solveDocument(input: unknown, choices: SolveChoices = {}): Solve
     }
     throw error;
   }
+}
+
+/**
+ * `solveDocument` with the result serialised where it was computed: a worker hands the web server
+ * one string (copied flat) instead of an object graph of hundreds of kilobytes that the server
+ * would rebuild and then serialise again on its event loop.
+ */
+export function solveDocumentToJson(input: unknown, choices: SolveChoices = {}): SolveJsonOutcome {
+  const outcome = solveDocument(input, choices);
+  return outcome.ok ? { ok: true, resultJson: JSON.stringify(outcome.result), durationMs: outcome.durationMs } : outcome;
 }

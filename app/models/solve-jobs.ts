@@ -14,12 +14,14 @@ import { adviseCapacity, type CapacityAdvice, type CapacityAdvisorOptions } from
 import { NoSteadyStateError, ScenarioInputError } from "../engine/problem";
 import { parseScenario } from "../engine/scenario";
 import { balkingSensitivity, type BalkingSensitivity, type SensitivityOptions } from "../engine/sensitivity";
-import { solveDocument, type SolveChoices, type SolveOutcome } from "./solve-document";
+import { solveDocument, solveDocumentToJson, type SolveChoices, type SolveJsonOutcome, type SolveOutcome } from "./solve-document";
 
 /** Every job a worker answers: its request and its answer (a type, so that it fits `JobMap`). */
 export type SolveJobs = {
   /** An exchange-format document validated and solved (`solveDocument`). */
   solve: { request: { input: unknown; choices: SolveChoices }; answer: SolveOutcome };
+  /** The same with the result as JSON text (`solveDocumentToJson`), for `POST /api/v1/solve`. */
+  solveToJson: { request: { input: unknown; choices: SolveChoices }; answer: SolveJsonOutcome };
   /** The balking sensitivity of a scenario document (a run's input snapshot). */
   sensitivity: { request: { document: unknown; options: SensitivityOptions }; answer: BalkingSensitivity };
   /** The capacity advisor on a scenario document. */
@@ -52,6 +54,10 @@ export function runSolveJob(kind: keyof SolveJobs, request: SolveJobs[keyof Solv
     case "solve": {
       const { input, choices } = request as SolveJobs["solve"]["request"];
       return solveDocument(input, choices);
+    }
+    case "solveToJson": {
+      const { input, choices } = request as SolveJobs["solveToJson"]["request"];
+      return solveDocumentToJson(input, choices);
     }
     case "sensitivity": {
       const { document, options } = request as SolveJobs["sensitivity"]["request"];

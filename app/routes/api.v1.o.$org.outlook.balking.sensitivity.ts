@@ -5,7 +5,9 @@
 import { z } from "zod";
 import { apiError, API_NOT_FOUND, requireApiMember } from "~/auth/api-guards.server";
 import { openOutlookRun, runContextOf, sensitivityFor } from "~/models/outlooks.server";
+import { SolvePoolError } from "~/models/solve-pool.server";
 import { BALKING_OUTLOOK_ROLES, readApiQuery } from "./outlook-query.server";
+import { poolRefusal } from "./solve-refusal.server";
 import type { Route } from "./+types/api.v1.o.$org.outlook.balking.sensitivity";
 
 /** More points than this is a batch job, not a request. */
@@ -45,12 +47,18 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   if (query.line !== undefined && !opened.scenario.serviceLines.some((line) => line.id === query.line)) {
     return apiError(400, "The query string is not valid.", [{ path: "line", message: `this run has no service line "${query.line}"` }]);
   }
-  const sensitivity = sensitivityFor(opened, {
-    lines: query.line ? [query.line] : undefined,
-    privateCostFactors: query.privateCost,
-    capacityFactors: query.capacity,
-    rules: query.rules ?? ["choice", "optimum"],
-  });
+  let sensitivity;
+  try {
+    sensitivity = await sensitivityFor(opened, {
+      lines: query.line ? [query.line] : undefined,
+      privateCostFactors: query.privateCost,
+      capacityFactors: query.capacity,
+      rules: query.rules ?? ["choice", "optimum"],
+    });
+  } catch (error) {
+    if (error instanceof SolvePoolError) return poolRefusal(error);
+    throw error;
+  }
   const context = runContextOf(opened);
   return Response.json({
     run: { id: context.runId, scenarioName: context.scenarioName, label: context.runLabel, dataDate: context.dataDate },

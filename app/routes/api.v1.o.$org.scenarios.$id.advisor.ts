@@ -11,7 +11,9 @@ import { NoSteadyStateError } from "~/engine/problem";
 import { capacityAdviceFor } from "~/models/outlooks.server";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
 import { scenarioSize } from "~/models/plan-gates.server";
+import { SolvePoolError } from "~/models/solve-pool.server";
 import { idParam, methodNotAllowed, readJsonBody, requireApiPlan } from "./api-support.server";
+import { poolRefusal } from "./solve-refusal.server";
 import type { Route } from "./+types/api.v1.o.$org.scenarios.$id.advisor";
 
 /** The advisor re-solves a line per candidate and step: beyond this it is a batch job. */
@@ -43,11 +45,12 @@ export async function action({ request, params }: Route.ActionArgs) {
   // The advisor solves the scenario once per candidate site: it is a run as far as the plan goes.
   await requireApiPlan(organisation, ["runs", "problemSize"], scenarioSize(document));
   try {
-    const advice = capacityAdviceFor(document, `scenario:${id}:${scenario.updatedAt.toISOString()}`, parsed.data);
+    const advice = await capacityAdviceFor(document, `scenario:${id}:${scenario.updatedAt.toISOString()}`, parsed.data);
     return Response.json({ scenarioId: id, advice });
   } catch (error) {
     if (error instanceof RangeError) return apiError(400, error.message);
     if (error instanceof NoSteadyStateError) return apiError(422, error.message);
+    if (error instanceof SolvePoolError) return poolRefusal(error);
     throw error;
   }
 }

@@ -11,7 +11,7 @@
 import { apiError, requireApiAccess, requireApiUser } from "~/auth/api-guards.server";
 import type { RuleKey } from "~/engine/problem";
 import { planRefusalForPerson, scenarioSize } from "~/models/plan-gates.server";
-import { solveDocumentInPool } from "~/models/runs.server";
+import { solveDocumentToJsonInPool } from "~/models/runs.server";
 import { methodNotAllowed, readJsonBody, requireApiPlan } from "./api-support.server";
 import { solveRefusal } from "./solve-refusal.server";
 import type { Route } from "./+types/api.v1.solve";
@@ -37,9 +37,10 @@ export async function action({ request }: Route.ActionArgs) {
     const refusal = await planRefusalForPerson(user.id, ["runs", "problemSize"], size);
     if (refusal) return apiError(403, refusal.message);
   }
-  const outcome = await solveDocumentInPool(body, { periods: periods === null ? undefined : periods === "1", rules: rules as RuleKey[] | undefined });
+  const outcome = await solveDocumentToJsonInPool(body, { periods: periods === null ? undefined : periods === "1", rules: rules as RuleKey[] | undefined });
   if (!outcome.ok) return solveRefusal(outcome);
-  return Response.json(outcome.result, { headers: { "X-Solve-Milliseconds": outcome.durationMs.toFixed(1) } });
+  // The worker serialised the result already (the same text Response.json would write).
+  return new Response(outcome.resultJson, { headers: { "Content-Type": "application/json", "X-Solve-Milliseconds": outcome.durationMs.toFixed(1) } });
 }
 
 export async function loader() {

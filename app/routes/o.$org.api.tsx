@@ -51,7 +51,9 @@ function endpoints(slug: string): Endpoint[] {
   "assumptions": { "kmPerWeek": 15, … }, "cautions": [ … ], "warnings": [] }
 400 { "error": { "status": 400, "message": "The scenario is not valid.",
                  "issues": [ { "path": "sources[1].demand.ortho", "message": "must be a number ≥ 0 (referrals/week); got -2" } ] } }
-422 { "error": { "status": 422, "message": "No steady state for service line \\"ortho\\": …" } }`,
+422 { "error": { "status": 422, "message": "No steady state for service line \\"ortho\\": …" } }
+503 Retry-After: 4
+    { "error": { "status": 503, "message": "The server is busy: all 3 solve workers are working and 64 solves are waiting. Try again in about 4 s." } }`,
     },
     {
       method: "GET",

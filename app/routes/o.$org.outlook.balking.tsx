@@ -21,6 +21,7 @@ import { getRegionMap } from "~/models/region-maps.server";
 import { FilterSelect } from "~/components/filter-select";
 import { RULE_LABELS } from "~/models/result-document";
 import { balkingOutlookFor, openOutlookRun, runChoices, runContextOf, sensitivityFor } from "~/models/outlooks.server";
+import { SolvePoolError } from "~/models/solve-pool.server";
 import { listVisibleRuns } from "~/models/publishing.server";
 import { BALKING_OUTLOOK_ROLES, balkingOutlookQuery, readPageQuery } from "./outlook-query.server";
 import type { Route } from "./+types/o.$org.outlook.balking";
@@ -42,7 +43,13 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   }
   const lines = query.line ? [query.line] : undefined;
   const outlook = balkingOutlookFor(opened, { rule: query.rule, lines, periodId: query.period });
-  const sensitivity = sensitivityFor(opened, { lines, rules: ["choice", "optimum"] });
+  const sensitivity = await sensitivityFor(opened, { lines, rules: ["choice", "optimum"] }).catch((error: unknown) => {
+    // Every solve worker busy: say so rather than wait without limit.
+    if (error instanceof SolvePoolError) {
+      throw new Response(error.message, { status: error.status, headers: error.retryAfterSeconds ? { "Retry-After": String(error.retryAfterSeconds) } : {} });
+    }
+    throw error;
+  });
   const region = await getRegionMap(await getDb(), organisation.id);
   return {
     slug: organisation.slug,

@@ -3,10 +3,10 @@
  * pool, the issues when there are any, and `Retry-After` when the server was only busy (503).
  */
 import { apiError } from "~/auth/api-guards.server";
-import type { PooledSolveOutcome } from "~/models/runs.server";
+import type { PoolRefusal, SolveOutcome } from "~/models/runs.server";
 import type { SolvePoolError } from "~/models/solve-pool.server";
 
-type Refusal = Extract<PooledSolveOutcome, { ok: false }>;
+type Refusal = Extract<SolveOutcome, { ok: false }> | PoolRefusal;
 
 export function solveRefusal(outcome: Refusal): Response {
   const response = apiError(outcome.status, outcome.error, outcome.issues.length > 0 ? outcome.issues : undefined);

@@ -1,8 +1,8 @@
 /**
  * The API routes that solve, now that solves run on the worker pool: `POST /api/v1/solve` answers
  * what the in-thread solve answers (200, 400 with the same issues, 422), and a server whose workers
- * and queue are full answers 503 with `Retry-After` and a message at once — for a plain solve and
- * for a stored run, which then stores nothing.
+ * and queue are full answers 503 with `Retry-After` and a message at once — for a plain solve, for
+ * a stored run (which then stores nothing) and for the capacity advisor.
  */
 import { pathToFileURL } from "node:url";
 import { eq } from "drizzle-orm";
@@ -12,6 +12,7 @@ import { importScenario } from "~/models/scenarios.server";
 import { solveDocument } from "~/models/solve-document";
 import type { SolveJobs } from "~/models/solve-jobs";
 import { setSolvePool, SolvePool } from "~/models/solve-pool.server";
+import * as advisor from "~/routes/api.v1.o.$org.scenarios.$id.advisor";
 import * as scenarioRuns from "~/routes/api.v1.o.$org.scenarios.$id.runs";
 import * as solve from "~/routes/api.v1.solve";
 import { useAuthEnvironment } from "../auth/support/environment";
@@ -82,7 +83,7 @@ describe("POST /api/v1/solve on the pool", () => {
 });
 
 describe("a full pool", () => {
-  it("answers 503 with Retry-After at once, for a solve and for a run (which stores nothing)", async () => {
+  it("answers 503 with Retry-After at once, for a solve, a run (which stores nothing) and the advisor", async () => {
     const pool = usePool({ size: 1, queueLimit: 0 });
     const shared = new Int32Array(new SharedArrayBuffer(4));
     const holding = pool.run("hold", { gate: shared });
@@ -103,6 +104,14 @@ describe("a full pool", () => {
       expect(run.status).toBe(503);
       expect(run.headers.get("Retry-After")).not.toBeNull();
       expect(await database.db.select({ id: runs.id }).from(runs).where(eq(runs.scenarioId, scenarioId))).toEqual(before);
+
+      const advice = await call(advisor, `/api/v1/o/${tenant.organisation.slug}/scenarios/${scenarioId}/advisor`, { org: tenant.organisation.slug, id: String(scenarioId) }, {
+        userId: tenant.members.planner.user.id,
+        method: "POST",
+        json: { extraTeams: 1 },
+      });
+      expect(advice.status).toBe(503);
+      expect(advice.headers.get("Retry-After")).not.toBeNull();
     } finally {
       Atomics.store(shared, 0, 1);
       Atomics.notify(shared, 0);
