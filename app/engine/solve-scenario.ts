@@ -128,7 +128,8 @@ export function solveScenario(scenario: Scenario, options: SolveScenarioOptions 
   };
 }
 
-function rulesToRun(scenario: Scenario, requested: readonly RuleKey[] | undefined): RuleKey[] {
+/** The rules `solveScenario` runs: all that apply to the scenario, or those of them requested. */
+export function rulesToRun(scenario: Scenario, requested?: readonly RuleKey[]): RuleKey[] {
   const applies = (rule: RuleKey) =>
     rule === "choiceLogit" ? scenario.choiceModel.kind === "logit" : rule === "plan" ? Boolean(scenario.plan) : true;
   return RULE_ORDER.filter((rule) => applies(rule) && (!requested || requested.includes(rule)));
@@ -236,6 +237,46 @@ function emptySolution(build: LineBuild): RuleSolution {
     siteWait: Float64Array.from(sites, (site) => site.wait(0)),
     diagnostics: { converged: true, iterations: 0, relativeGap: 0, warnings: [] },
   };
+}
+
+/**
+ * One result from results of the same scenario solved for disjoint sets of rules (e.g. on two
+ * threads): each line's rules in RULE_ORDER, and the prices of anarchy and warnings recomputed as
+ * `solveScenario` would have made them with every rule at once.
+ */
+export function mergeScenarioResults(parts: readonly ScenarioResult[]): ScenarioResult {
+  const [first] = parts;
+  if (!first) throw new Error("mergeScenarioResults needs at least one result.");
+  const mergeLines = (each: Record<string, LineReport>[]): Record<string, LineReport> => {
+    const merged: Record<string, LineReport> = {};
+    for (const lineId of Object.keys(each[0])) {
+      const versions = each.map((lines) => lines[lineId]);
+      const rules: LineReport["rules"] = {};
+      // Warnings not about a rule (no steady state) are the same in every part; a rule's are
+      // prefixed with its name and come from the part that solved it.
+      const warnings = versions[0].warnings.filter((warning) => !RULE_ORDER.some((rule) => warning.startsWith(`${rule}: `)));
+      for (const rule of RULE_ORDER) {
+        const solvedBy = versions.find((line) => line.rules[rule]);
+        if (!solvedBy) continue;
+        rules[rule] = solvedBy.rules[rule];
+        warnings.push(...solvedBy.warnings.filter((warning) => warning.startsWith(`${rule}: `)));
+      }
+      const choice = rules.choice?.totalCost ?? null;
+      const optimum = rules.optimum?.totalCost ?? null;
+      const priceOfAnarchy = choice !== null && optimum !== null && optimum > 0 ? choice / optimum : null;
+      merged[lineId] = { ...versions[0], priceOfAnarchy: versions[0].noSteadyState ? null : priceOfAnarchy, rules, warnings };
+    }
+    return merged;
+  };
+  const lines = mergeLines(parts.map((part) => part.lines));
+  const warnings = collectWarnings(lines, "");
+  const periods = first.periods?.map((period, index): PeriodReport => {
+    const periodLines = mergeLines(parts.map((part) => (part.periods as PeriodReport[])[index].lines));
+    const report = { ...period, priceOfAnarchy: overallPriceOfAnarchy(periodLines), lines: periodLines, warnings: collectWarnings(periodLines, "") };
+    warnings.push(...report.warnings.map((warning) => `Period ${period.id}: ${warning}`));
+    return report;
+  });
+  return { ...first, priceOfAnarchy: overallPriceOfAnarchy(lines), lines, ...(periods ? { periods } : {}), warnings };
 }
 
 /** Σ_lines totalCost(choice) / Σ_lines totalCost(optimum), over lines where both are finite. */

@@ -15,8 +15,12 @@ const fixtures = "tests/engine/scenario/fixtures";
  * resolves to, called directly because npx's own start-up costs seconds per case.
  */
 function solve(...args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
+  return solveWith({}, ...args);
+}
+
+function solveWith(env: Record<string, string>, ...args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
   return new Promise((resolve, reject) => {
-    const child = spawn(join(root, "node_modules", ".bin", "tsx"), ["app/engine/cli.ts", ...args], { cwd: root });
+    const child = spawn(join(root, "node_modules", ".bin", "tsx"), ["app/engine/cli.ts", ...args], { cwd: root, env: { ...process.env, ...env } });
     let stdout = "";
     let stderr = "";
     child.stdout.setEncoding("utf8").on("data", (chunk: string) => (stdout += chunk));
@@ -36,6 +40,19 @@ describe("the solve command line", () => {
     // CHECKS.md, two practices and two sites [derived]: price of anarchy 1.168866462325.
     expect(result.priceOfAnarchy).toBeCloseTo(1.168866462325, 9);
     expect(Object.keys(result.lines.ortho.rules)).toEqual(["choice", "choiceLogit", "optimum", "nearest", "capacityShare"]);
+  });
+
+  it("gives the same result when half the rules run on a second thread (as for large files)", async () => {
+    // Forced on a small file: the threaded path must not change a single figure or warning.
+    const file = "seed/demo-scenario.json";
+    const [single, threaded] = await Promise.all([
+      solveWith({ EQUILIBRA_SOLVE_PARALLEL_PAIRS: "1e12" }, file, "--compact"),
+      solveWith({ EQUILIBRA_SOLVE_PARALLEL_PAIRS: "1" }, file, "--compact"),
+    ]);
+    expect(single.code).toBe(0);
+    expect(threaded.code).toBe(0);
+    expect(threaded.stderr).toBe("");
+    expect(JSON.parse(threaded.stdout)).toEqual(JSON.parse(single.stdout));
   });
 
   it("prints one line with --compact", async () => {
@@ -74,8 +91,11 @@ describe("the solve command line", () => {
     expect(stderr).toBe("No scenario file given.\nUsage: npm run solve -- FILE.json [--compact]\n");
   });
 
-  it("exits 3 naming the line, the sites and the shortfall when there is no steady state", async () => {
-    const { code, stdout, stderr } = await solve(`${fixtures}/no-steady-state.json`);
+  it.each([
+    ["one thread", "1e12"],
+    ["two threads", "1"],
+  ])("exits 3 naming the line, the sites and the shortfall when there is no steady state (%s)", async (_, pairs) => {
+    const { code, stdout, stderr } = await solveWith({ EQUILIBRA_SOLVE_PARALLEL_PAIRS: pairs }, `${fixtures}/no-steady-state.json`);
     expect(code).toBe(3);
     expect(stdout).toBe("");
     expect(stderr).toBe(

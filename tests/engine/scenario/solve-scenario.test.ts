@@ -7,7 +7,7 @@ import { describe, expect, it } from "vitest";
 import { PLANNING_CAUTIONS } from "~/components/planning-cautions";
 import { NoSteadyStateError } from "~/engine/problem";
 import { parseScenario } from "~/engine/scenario";
-import { RESULT_CAUTIONS, solveScenario } from "~/engine/solve-scenario";
+import { mergeScenarioResults, RESULT_CAUTIONS, rulesToRun, solveScenario } from "~/engine/solve-scenario";
 
 const fixture = (name: string) => JSON.parse(readFileSync(new URL(`./fixtures/${name}`, import.meta.url), "utf8"));
 const solve = (json: unknown) => solveScenario(parseScenario(json));
@@ -237,6 +237,22 @@ describe("periods (SIPP)", () => {
     expect(result.warnings).toContain(
       'Period winter: Line ortho: No steady state for service line "ortho" in period "winter": demand without an outside option 3.30 referrals/week exceeds the capacity of sites ZZS1, ZZS2 (2.80/week) by 0.50 referrals/week.',
     );
+  });
+});
+
+describe("results solved in parts (the command line's two threads)", () => {
+  it("merge into exactly the result of solving every rule at once, periods and warnings included", () => {
+    const scenario = parseScenario(JSON.parse(readFileSync("seed/demo-scenario.json", "utf8")));
+    const whole = solveScenario(scenario);
+    const rules = rulesToRun(scenario);
+    expect(rules).toContain("plan");
+    expect(whole.periods?.length).toBeGreaterThan(1);
+    for (const taken of [["choice", "nearest", "plan"], ["optimum"], ["choice"]] as const) {
+      const first = solveScenario(scenario, { rules: rules.filter((rule) => (taken as readonly string[]).includes(rule)) });
+      const second = solveScenario(scenario, { rules: rules.filter((rule) => !(taken as readonly string[]).includes(rule)) });
+      expect(mergeScenarioResults([first, second])).toEqual(whole);
+      expect(mergeScenarioResults([second, first])).toEqual(whole);
+    }
   });
 });
 
