@@ -4,14 +4,16 @@
  *
  * - Workers start when work arrives, up to `size`; an idle worker does not keep the process alive.
  * - Jobs wait in a bounded first-in-first-out queue; when it is full the job is refused at once
- *   (`SolvePoolError` with status 503 and a retry delay) instead of waiting without limit.
+ *   (`SolvePoolError` with status 503 and a retry delay) instead of waiting without limit. Each
+ *   busy worker is handed the next waiting job ahead of time, so it never sits idle waiting for
+ *   the event loop to read its answer.
  * - A job running longer than `timeoutMs` is stopped by terminating its worker (a synchronous solve
  *   cannot be interrupted otherwise) and refused with 504; the worker is replaced.
  * - A worker that dies (an uncaught error, running out of memory, exiting) fails its job with 500
  *   and is replaced; the jobs queued behind it are not lost.
  *
  * Each worker runs `solve-worker.ts` from source through tsx's loader, in development, tests and
- * production alike (DEVELOPERS.md, "Solves run on worker threads from source").
+ * production alike (DEVELOPERS.md, "Solves run on worker threads, from source").
  */
 import { existsSync, readFileSync } from "node:fs";
 import { createRequire } from "node:module";
@@ -64,7 +66,10 @@ interface Job {
 
 interface Slot {
   worker: Worker;
-  job: Job | null;
+  /** The job the worker is working on. */
+  running: Job | null;
+  /** The job posted to the worker ahead of time, which it starts when `running` ends. */
+  next: Job | null;
   startedAt: number;
   timer: NodeJS.Timeout | null;
   /** Set when the pool itself ends the worker, so its exit is not taken for a crash. */
@@ -113,6 +118,7 @@ export function defaultWorkerEntry(): string {
 
 export class SolvePool<Jobs extends JobMap = SolveJobs> {
   private readonly slots: Slot[] = [];
+  /** Waiting jobs not yet handed to a worker (first in, first out). */
   private readonly queue: Job[] = [];
   private readonly entry: string;
   private readonly tsxApi: string;
@@ -138,18 +144,20 @@ export class SolvePool<Jobs extends JobMap = SolveJobs> {
     return new Promise((resolve, reject) => {
       if (this.closed) return reject(new SolvePoolError(503, "The server is shutting down; no solve was started."));
       const job: Job = { id: this.nextId++, kind, request, resolve: resolve as (answer: unknown) => void, reject };
-      const idle = this.slots.find((slot) => slot.job === null);
-      if (idle) return this.dispatch(idle, job);
-      if (this.slots.length < this.options.size) return this.dispatch(this.startWorker(), job);
-      if (this.queue.length < this.options.queueLimit) {
+      const idle = this.slots.find((slot) => slot.running === null);
+      if (idle) return this.start(idle, job);
+      if (this.slots.length < this.options.size) return this.start(this.startWorker(), job);
+      const waiting = this.waiting();
+      if (waiting < this.options.queueLimit) {
         this.queue.push(job);
+        this.handAhead();
         return;
       }
-      const retryAfterSeconds = Math.max(1, Math.ceil((this.typicalJobMs * (this.queue.length + 1)) / this.options.size / 1000));
+      const retryAfterSeconds = Math.max(1, Math.ceil((this.typicalJobMs * (waiting + 1)) / this.options.size / 1000));
       reject(
         new SolvePoolError(
           503,
-          `The server is busy: all ${this.options.size} solve workers are working and ${this.queue.length} solves are waiting. Try again in about ${retryAfterSeconds} s.`,
+          `The server is busy: all ${this.options.size} solve workers are working and ${waiting} solves are waiting. Try again in about ${retryAfterSeconds} s.`,
           retryAfterSeconds,
         ),
       );
@@ -157,29 +165,35 @@ export class SolvePool<Jobs extends JobMap = SolveJobs> {
   }
 
   stats(): SolvePoolStats {
-    return { workers: this.slots.length, busy: this.slots.filter((slot) => slot.job !== null).length, queued: this.queue.length, replaced: this.replaced };
+    return { workers: this.slots.length, busy: this.slots.filter((slot) => slot.running !== null).length, queued: this.waiting(), replaced: this.replaced };
   }
 
   /** Refuses waiting and running jobs with 503 and stops every worker. */
   async close(): Promise<void> {
     this.closed = true;
-    for (const job of this.queue.splice(0)) job.reject(new SolvePoolError(503, "The server is shutting down; the solve was not started."));
     const slots = this.slots.splice(0);
     for (const slot of slots) {
       slot.retiring = true;
       if (slot.timer) clearTimeout(slot.timer);
-      slot.job?.reject(new SolvePoolError(503, "The server is shutting down; the solve was stopped."));
-      slot.job = null;
+      slot.running?.reject(new SolvePoolError(503, "The server is shutting down; the solve was stopped."));
+      slot.next?.reject(new SolvePoolError(503, "The server is shutting down; the solve was not started."));
+      slot.running = slot.next = null;
     }
+    for (const job of this.queue.splice(0)) job.reject(new SolvePoolError(503, "The server is shutting down; the solve was not started."));
     await Promise.all(slots.map((slot) => slot.worker.terminate()));
+  }
+
+  /** Jobs accepted but not running: in the queue, or handed ahead to a busy worker. */
+  private waiting(): number {
+    return this.queue.length + this.slots.filter((slot) => slot.next !== null).length;
   }
 
   private startWorker(): Slot {
     const worker = new Worker(BOOTSTRAP, { eval: true, workerData: { tsxApi: this.tsxApi, entry: this.entry } });
-    const slot: Slot = { worker, job: null, startedAt: 0, timer: null, retiring: false, lastError: null };
+    const slot: Slot = { worker, running: null, next: null, startedAt: 0, timer: null, retiring: false, lastError: null };
     this.slots.push(slot);
     worker.on("message", (reply: JobReply) => this.settle(slot, reply));
-    worker.on("messageerror", (error) => this.fail(slot, new SolvePoolError(500, `The solver's answer could not be read: ${error.message}`)));
+    worker.on("messageerror", (error) => this.settle(slot, { id: slot.running?.id ?? 0, thrown: { name: "SolvePoolError", message: error.message } }));
     worker.on("error", (error) => {
       slot.lastError = error;
     });
@@ -187,81 +201,99 @@ export class SolvePool<Jobs extends JobMap = SolveJobs> {
     return slot;
   }
 
-  private dispatch(slot: Slot, job: Job): void {
-    slot.job = job;
-    slot.startedAt = performance.now();
-    slot.worker.ref();
-    slot.timer = setTimeout(() => this.timedOut(slot), this.options.timeoutMs);
+  private post(slot: Slot, job: Job): void {
     slot.worker.postMessage({ id: job.id, kind: job.kind, request: job.request } satisfies JobMessage<JobMap, string>);
   }
 
-  /** Frees the slot and starts the next waiting job on it. */
-  private release(slot: Slot): void {
-    if (slot.timer) clearTimeout(slot.timer);
-    slot.timer = null;
-    slot.job = null;
-    slot.worker.unref();
-    const next = this.queue.shift();
-    if (next) this.dispatch(slot, next);
+  /** Marks `job` as running on `slot` (already posted when it was handed ahead) and starts its clock. */
+  private begin(slot: Slot, job: Job): void {
+    slot.running = job;
+    slot.startedAt = performance.now();
+    slot.worker.ref();
+    slot.timer = setTimeout(() => this.timedOut(slot), this.options.timeoutMs);
+  }
+
+  private start(slot: Slot, job: Job): void {
+    this.begin(slot, job);
+    this.post(slot, job);
+  }
+
+  /**
+   * Gives each busy worker the next waiting job before its current one ends, so it starts that
+   * job the moment it posts its answer, instead of idling until the web server's event loop (busy
+   * with pages and other requests) gets round to reading the answer. One job ahead at most, so a
+   * long job delays at most one other.
+   */
+  private handAhead(): void {
+    for (const slot of this.slots) {
+      if (this.queue.length === 0) return;
+      if (slot.running !== null && slot.next === null && !slot.retiring) {
+        slot.next = this.queue.shift()!;
+        this.post(slot, slot.next);
+      }
+    }
   }
 
   private settle(slot: Slot, reply: JobReply): void {
-    const job = slot.job;
+    const job = slot.running;
     if (!job || job.id !== reply.id) return;
+    if (slot.timer) clearTimeout(slot.timer);
+    slot.timer = null;
+    slot.running = null;
     this.typicalJobMs = 0.8 * this.typicalJobMs + 0.2 * (performance.now() - slot.startedAt);
-    this.release(slot);
-    if ("thrown" in reply) job.reject(rebuildThrown(reply.thrown));
-    else job.resolve(reply.answer);
-  }
-
-  private fail(slot: Slot, error: SolvePoolError): void {
-    const job = slot.job;
-    if (!job) return;
-    this.release(slot);
-    job.reject(error);
+    if (slot.next) {
+      // The worker has already started it.
+      const next = slot.next;
+      slot.next = null;
+      this.begin(slot, next);
+    } else if (this.queue.length > 0) {
+      this.start(slot, this.queue.shift()!);
+    } else {
+      slot.worker.unref();
+    }
+    this.handAhead();
+    if (!("thrown" in reply)) job.resolve(reply.answer);
+    else if (reply.thrown.name === "SolvePoolError") job.reject(new SolvePoolError(500, `The solver's answer could not be read: ${reply.thrown.message}`));
+    else job.reject(rebuildThrown(reply.thrown));
   }
 
   private timedOut(slot: Slot): void {
-    const job = slot.job;
+    const job = slot.running;
     if (!job) return;
-    slot.job = null;
+    slot.running = null;
     slot.timer = null;
     job.reject(
       new SolvePoolError(504, `The solve did not finish within ${Number((this.options.timeoutMs / 1000).toPrecision(3))} s and was stopped (SOLVE_TIMEOUT_SECONDS). Solve fewer rules or only the stationary problem (periods=0).`),
     );
-    this.retire(slot);
-  }
-
-  /** Ends a worker the pool no longer trusts and moves waiting work to a fresh one. */
-  private retire(slot: Slot): void {
     slot.retiring = true;
-    this.remove(slot);
     void slot.worker.terminate();
-    this.replaced++;
-    this.refill();
+    this.replace(slot);
   }
 
   private exited(slot: Slot, code: number): void {
     if (slot.retiring) return;
-    this.remove(slot);
-    this.replaced++;
-    const job = slot.job;
+    const job = slot.running;
     if (job) {
       if (slot.timer) clearTimeout(slot.timer);
+      slot.running = null;
       const cause = slot.lastError ? `: ${slot.lastError.message}` : ` (exit code ${code})`;
       job.reject(new SolvePoolError(500, `The solver stopped unexpectedly while working on this request${cause}. It has been restarted; the request can be sent again.`));
     }
-    this.refill();
+    this.replace(slot);
   }
 
-  private remove(slot: Slot): void {
+  /**
+   * Forgets a worker that is gone or being stopped: the job handed ahead to it never started, so
+   * it goes back to the front of the queue, and fresh workers take the waiting jobs.
+   */
+  private replace(slot: Slot): void {
     const index = this.slots.indexOf(slot);
     if (index >= 0) this.slots.splice(index, 1);
-  }
-
-  /** Starts workers for waiting jobs, up to the pool's size. */
-  private refill(): void {
-    while (!this.closed && this.queue.length > 0 && this.slots.length < this.options.size) this.dispatch(this.startWorker(), this.queue.shift()!);
+    this.replaced++;
+    if (slot.next) this.queue.unshift(slot.next);
+    slot.next = null;
+    while (!this.closed && this.queue.length > 0 && this.slots.length < this.options.size) this.start(this.startWorker(), this.queue.shift()!);
+    this.handAhead();
   }
 }
 

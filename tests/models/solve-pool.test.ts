@@ -111,21 +111,24 @@ describe("answers from the pool", () => {
 
 describe("a bounded queue", () => {
   it("refuses a job at once with 503 and a retry delay when the workers and the queue are full", async () => {
-    const pool = testPool({ size: 1, queueLimit: 1 });
+    const pool = testPool({ size: 1, queueLimit: 2 });
     const held = gate();
     const running = pool.run("hold", { gate: held.gate });
-    const waiting = pool.run("solve", { input: smallScenario(), choices: { periods: false } });
-    expect(pool.stats()).toMatchObject({ workers: 1, busy: 1, queued: 1 });
+    // The first waiting job is handed to the busy worker ahead of time, the second stays queued.
+    const waiting = [pool.run("solve", { input: smallScenario(), choices: { periods: false } }), pool.run("solve", { input: captiveScenario(), choices: {} })];
+    expect(pool.stats()).toEqual({ workers: 1, busy: 1, queued: 2, replaced: 0 });
 
     const refused = await refusal(pool.run("solve", { input: smallScenario(), choices: {} }));
     expect(refused.status).toBe(503);
-    expect(refused.message).toMatch(/^The server is busy: all 1 solve workers are working and 1 solves are waiting\. Try again in about \d+ s\.$/);
+    expect(refused.message).toMatch(/^The server is busy: all 1 solve workers are working and 2 solves are waiting\. Try again in about \d+ s\.$/);
     expect(refused.retryAfterSeconds).toBeGreaterThanOrEqual(1);
 
     held.open();
     expect(await running).toBe("released");
-    expect((await waiting).ok).toBe(true);
-    expect(pool.stats()).toMatchObject({ workers: 1, busy: 0, queued: 0 });
+    const [first, second] = await Promise.all(waiting);
+    expect(first.ok).toBe(true);
+    expect(second).toEqual(solveDocument(captiveScenario()));
+    expect(pool.stats()).toEqual({ workers: 1, busy: 0, queued: 0, replaced: 0 });
   });
 });
 
