@@ -113,3 +113,44 @@ export function generateRegion(spec: RegionSpec): LineProblem[] {
   }
   return problems;
 }
+
+/**
+ * The national instance as an exchange-format scenario (for timing the whole `npm run solve`
+ * process): the same shape as `generateRegion(NATIONAL)` — towns, demand, outside options, sites
+ * sized to the target utilisation — placed in degrees on an invented patch of open sea
+ * (1° ≈ 111 km), one service line, no urgent share.
+ */
+export function generateScenarioDocument(spec: RegionSpec): Record<string, unknown> {
+  const random = seededRandom(spec.seed + 1);
+  const gaussian = (): number => Math.sqrt(-2 * Math.log(1 - random())) * Math.cos(2 * Math.PI * random());
+  const towns = Array.from({ length: spec.towns }, () => ({ x: random() * spec.widthKm, y: random() * spec.heightKm, weight: 0.3 + random() }));
+  const totalWeight = towns.reduce((s, t) => s + t.weight, 0);
+  const townRadius = Math.sqrt((spec.widthKm * spec.heightKm) / spec.towns) / 4;
+  const place = () => {
+    let r = random() * totalWeight;
+    const town = towns.find((t) => (r -= t.weight) <= 0) ?? towns[towns.length - 1];
+    const x = Math.min(Math.max(town.x + gaussian() * townRadius, 0), spec.widthKm);
+    const y = Math.min(Math.max(town.y + gaussian() * townRadius, 0), spec.heightKm);
+    return { lat: -20 + y / 111, lon: -20 + x / 111 };
+  };
+  const line = "line1";
+  const sources = Array.from({ length: spec.sources }, (_, i) => {
+    const kind = random();
+    return {
+      id: `ZZP${String(i + 1).padStart(4, "0")}`,
+      ...place(),
+      demand: { [line]: 0.4 + 2.2 * random() },
+      ...(kind < 0.15 ? {} : { outsideCost: 15 + 15 * random() }),
+      outsideSpread: kind < 0.35 ? 0 : 0.3 + 0.2 * random(),
+    };
+  });
+  const totalDemand = sources.reduce((s, source) => s + source.demand[line], 0);
+  const weights = Array.from({ length: spec.sites }, () => 0.3 + random());
+  const weightSum = weights.reduce((s, w) => s + w, 0);
+  const providers = weights.map((weight, j) => {
+    const teams = 2 + Math.floor(random() * 14);
+    const capacity = (totalDemand / spec.utilisation) * (weight / weightSum);
+    return { id: `ZZS${j + 1}`, ...place(), lines: { [line]: { teams, ratePerTeam: capacity / teams } } };
+  });
+  return { schema: "equilibra/scenario@1", name: spec.name, serviceLines: [{ id: line }], sources, providers };
+}

@@ -5,7 +5,9 @@
  * process: the gap it reaches in the time our solver took, and the time it needs to reach 1e-4
  * (capped at BENCH_FW_LIMIT_S seconds, default 60).
  *
- * Environment: BENCH_ONLY=demo|large|national to run one instance; BENCH_FW_LIMIT_S to change
+ * Then the whole `npm run solve` process on the national instance written as an exchange-format file.
+ *
+ * Environment: BENCH_ONLY=demo|large|national|cli to run one part; BENCH_FW_LIMIT_S to change
  * the Frank–Wolfe cap.
  */
 import type { LineProblem, SolveDiagnostics } from "../../app/engine/problem";
@@ -15,7 +17,11 @@ import { solveOptimum } from "../../app/engine/optimum";
 import { solveCapacityShare, solveNearest } from "../../app/engine/fixed-rules";
 import { solvePlan } from "../../app/engine/plan";
 import { marginalCostCurve, waitCurve } from "../../app/engine/site-cost-curve";
-import { DEMO_LIKE, LARGE, NATIONAL, type RegionSpec, generateRegion } from "./generate";
+import { spawnSync } from "node:child_process";
+import { existsSync, mkdtempSync, rmSync, writeFileSync } from "node:fs";
+import os, { tmpdir } from "node:os";
+import { join } from "node:path";
+import { DEMO_LIKE, LARGE, NATIONAL, type RegionSpec, generateRegion, generateScenarioDocument } from "./generate";
 import { frankWolfe, gapWithin } from "./frank-wolfe";
 
 type Rule = { name: string; solve: (problem: LineProblem) => { diagnostics: SolveDiagnostics } };
@@ -37,13 +43,29 @@ const planBaselines: Rule[] = [
 const fwLimitMs = Number(process.env.BENCH_FW_LIMIT_S ?? 60) * 1000;
 const peakMb = (): number => process.resourceUsage().maxRSS / 1024;
 
-function timeRule(rule: Rule, problems: LineProblem[], repeats: number): { ms: number; iterations: number; gap: number; converged: boolean; perLineMs: number[] } {
-  let best: { ms: number; iterations: number; gap: number; converged: boolean; perLineMs: number[] } | null = null;
+interface Timing {
+  ms: number;
+  /** CPU time of this process over the same span: on a shared machine, closer to what the solve costs than the wall time. */
+  cpuMs: number;
+  iterations: number;
+  gap: number;
+  converged: boolean;
+  perLineMs: number[];
+}
+
+const cpuNow = (): number => {
+  const { user, system } = process.cpuUsage();
+  return (user + system) / 1000;
+};
+
+function timeRule(rule: Rule, problems: LineProblem[], repeats: number): Timing {
+  let best: Timing | null = null;
   for (let r = 0; r < repeats; r++) {
     let iterations = 0;
     let gap = 0;
     let converged = true;
     const perLineMs: number[] = [];
+    const cpuStarted = cpuNow();
     const started = performance.now();
     for (const problem of problems) {
       const lineStart = performance.now();
@@ -54,9 +76,10 @@ function timeRule(rule: Rule, problems: LineProblem[], repeats: number): { ms: n
       converged &&= diagnostics.converged;
     }
     const ms = performance.now() - started;
-    if (!best || ms < best.ms) best = { ms, iterations, gap, converged, perLineMs };
+    const cpuMs = cpuNow() - cpuStarted;
+    if (!best || ms < best.ms) best = { ms, cpuMs, iterations, gap, converged, perLineMs };
   }
-  return best as NonNullable<typeof best>;
+  return best as Timing;
 }
 
 const pad = (text: string, width: number): string => text.padEnd(width);
@@ -70,8 +93,8 @@ function benchInstance(spec: RegionSpec): void {
   // Warm the JIT on this instance's shapes so small instances report steady-state times.
   if (small) for (const rule of rules) timeRule(rule, problems, 1);
   console.log(
-    "| rule | wall ms | iterations | rel. gap | converged | peak RSS MB | FW gap in same time | FW time to 1e-4 |\n" +
-      "| --- | ---: | ---: | ---: | --- | ---: | ---: | ---: |",
+    "| rule | wall ms | cpu ms | iterations | rel. gap | converged | peak RSS MB | FW gap in same time | FW time to 1e-4 |\n" +
+      "| --- | ---: | ---: | ---: | ---: | --- | ---: | ---: | ---: |",
   );
   for (const rule of spec.sources * spec.sites <= 1_000 ? [...rules, ...planBaselines] : rules) {
     const result = timeRule(rule, problems, small ? 3 : 1);
@@ -86,13 +109,48 @@ function benchInstance(spec: RegionSpec): void {
       fwTime = trace.msToTarget === null ? `not within ${fwLimitMs / 1000} s` : `${trace.msToTarget.toFixed(0)} ms (${(trace.msToTarget / result.perLineMs[0]).toFixed(0)}× ours)`;
     }
     console.log(
-      `| ${pad(rule.name, 15)} | ${result.ms.toFixed(1)} | ${result.iterations} | ${fmt(result.gap)} | ${result.converged} | ${peakMb().toFixed(0)} | ${fwGap} | ${fwTime} |`,
+      `| ${pad(rule.name, 15)} | ${result.ms.toFixed(1)} | ${result.cpuMs.toFixed(0)} | ${result.iterations} | ${fmt(result.gap)} | ${result.converged} | ${peakMb().toFixed(0)} | ${fwGap} | ${fwTime} |`,
     );
   }
 }
 
+/**
+ * The whole `npm run solve` process on the national instance as an exchange-format file: start-up,
+ * validation, every rule that applies (choice, optimum, nearest, capacityShare), the result JSON
+ * written to /dev/null. Wall time, and the child's CPU time and peak memory from GNU time when
+ * installed. Baseline in the same run: the same command on an invalid file (start-up and exit only).
+ */
+function benchCommandLine(): void {
+  const directory = mkdtempSync(join(tmpdir(), "equilibra-bench-"));
+  const file = join(directory, "national.json");
+  writeFileSync(file, JSON.stringify(generateScenarioDocument(NATIONAL)));
+  const invalid = join(directory, "invalid.json");
+  writeFileSync(invalid, JSON.stringify({ schema: "equilibra/scenario@1" }));
+  const gnuTime = existsSync("/usr/bin/time");
+  const run = (input: string) => {
+    const command = `${gnuTime ? "/usr/bin/time -f '%U %S %M' " : ""}npm run -s solve -- ${input} --compact > /dev/null`;
+    const started = performance.now();
+    const child = spawnSync("sh", ["-c", command], { encoding: "utf8" });
+    const ms = performance.now() - started;
+    const [user, system, rssKb] = (child.stderr.trim().split("\n").at(-1) ?? "").split(" ").map(Number);
+    const usage = gnuTime && Number.isFinite(rssKb) ? { cpuMs: (user + system) * 1000, rssMb: rssKb / 1024 } : null;
+    return { ms, code: child.status, usage };
+  };
+  const baseline = run(invalid);
+  const whole = run(file);
+  rmSync(directory, { recursive: true, force: true });
+  const cell = (value: number | undefined, digits = 0) => (value === undefined ? "n/a" : value.toFixed(digits));
+  console.log(`\n## npm run solve on the national file (${NATIONAL.sources}×${NATIONAL.sites}, exit ${whole.code})`);
+  console.log("| command | wall ms | cpu ms (all threads) | peak RSS MB |\n| --- | ---: | ---: | ---: |");
+  console.log(`| whole solve (target < 3000 ms) | ${whole.ms.toFixed(0)} | ${cell(whole.usage?.cpuMs)} | ${cell(whole.usage?.rssMb)} |`);
+  console.log(`| baseline: invalid file, start-up only | ${baseline.ms.toFixed(0)} | ${cell(baseline.usage?.cpuMs)} | ${cell(baseline.usage?.rssMb)} |`);
+}
+
 const only = process.env.BENCH_ONLY;
+console.log(`Machine: ${os.cpus().length} cores, load average ${os.loadavg().map((value) => value.toFixed(2)).join(" / ")} (1/5/15 min) at start.`);
 for (const spec of [DEMO_LIKE, LARGE, NATIONAL]) {
   if (only && !spec.name.startsWith(only)) continue;
   benchInstance(spec);
 }
+if (!only || only === "cli") benchCommandLine();
+console.log(`\nLoad average at the end: ${os.loadavg().map((value) => value.toFixed(2)).join(" / ")}.`);
