@@ -190,6 +190,7 @@ export function solveFixedShares(
   const streamHigh = new Float64Array(start[m]);
   const fill = start.slice(0, m);
   for (let i = 0; i < n; i++) {
+    const range = reservationRange(outsideCost[i], outsideSpread[i]);
     for (let j = 0; j < m; j++) {
       const stream = demand[i] * shares[i * m + j];
       if (!(stream > 0)) continue;
@@ -197,7 +198,6 @@ export function solveFixedShares(
       streamSource[k] = i;
       streamDemand[k] = stream;
       streamTravel[k] = travelCost[i * m + j];
-      const range = reservationRange(outsideCost[i], outsideSpread[i]);
       streamLow[k] = range.low - streamTravel[k];
       streamHigh[k] = range.high - streamTravel[k];
     }
