@@ -1,17 +1,20 @@
 /**
  * A stored run as the workspace page shows it: its input snapshot and its stationary result
- * slimmed to what the page reads (`slimResult`). A run never changes once stored, so this view is
- * kept in memory per run id and reopening a run reads none of its result (hundreds of kilobytes of
- * JSON) from the database again. The cache is per process and bounded; a deleted run's entry is
- * never reached, because callers come here only with a run from the member's own listing.
+ * slimmed to what the page reads (`slimResult`), the result as JSON text (see `json-text.ts`). A run
+ * never changes once stored, so this view is kept in memory per run id and reopening a run reads
+ * none of its result (hundreds of kilobytes of JSON) from the database again. The cache is per
+ * process and bounded; a deleted run's entry is never reached, because callers come here only with
+ * a run from the member's own listing.
  */
+import { toJsonText, type JsonText } from "./json-text";
 import { getRun, type RunSummary, type WholeRunAccess } from "./runs.server";
 import { slimResult, type ResultDocument } from "./result-document";
 import type { ScenarioDocument } from "./scenarios.server";
 
 export interface WorkspaceRun {
   input: ScenarioDocument;
-  result: ResultDocument;
+  result: JsonText<ResultDocument>;
+  priceOfAnarchy: number | null;
 }
 
 /** About 0.3 MB each for the demo region: a few dozen recently opened runs stay in memory. */
@@ -33,7 +36,8 @@ export async function getWorkspaceRun(organisationId: number, run: Pick<RunSumma
   // The page compares rules on the stationary result; the period-by-period outlook is another screen.
   const stored = await getRun(organisationId, run.id, { periods: false, access });
   if (!stored) return null;
-  const view: WorkspaceRun = { input: stored.input, result: slimResult(stored.result as unknown as ResultDocument) };
+  const result = slimResult(stored.result as unknown as ResultDocument);
+  const view: WorkspaceRun = { input: stored.input, result: toJsonText(result), priceOfAnarchy: result.priceOfAnarchy };
   cache.set(run.id, view);
   while (cache.size > CACHE_LIMIT) cache.delete(cache.keys().next().value as number);
   return view;

@@ -20,6 +20,7 @@ import { getRegionMap } from "~/models/region-maps.server";
 import { RULE_LABELS, rulesIn, type ResultDocument } from "~/models/result-document";
 import { wholeRunAccess } from "~/models/publishing.server";
 import { listRuns } from "~/models/runs.server";
+import { fromJsonText, sameJson, toJsonText } from "~/models/json-text";
 import { getWorkspaceRun } from "~/models/workspace-run.server";
 import { addSite, moveSite, practiceDemand, removeSite, type ScenarioDoc } from "~/models/scenario-document";
 import { exportScenario, getScenario } from "~/models/scenarios.server";
@@ -67,11 +68,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
           createdByLogin: run.createdByLogin,
           converged: run.converged,
           durationMs: run.durationMs,
-          input: opened.input as ScenarioDoc,
+          // Most runs are of the scenario as it still is: the page then reuses `document`.
+          input: sameJson(opened.input, document) ? null : (opened.input as ScenarioDoc),
           result: opened.result,
+          priceOfAnarchy: opened.priceOfAnarchy,
         }
       : null,
-    region: region as FeatureCollection | null,
+    // The map draws it only after hydration; as text it costs the page one string.
+    region: region ? toJsonText(region as FeatureCollection) : null,
   };
 }
 
@@ -93,7 +97,9 @@ interface ApiReply {
 }
 
 export default function Workspace({ loaderData }: Route.ComponentProps) {
-  const { organisation, canEdit, scenario, document, runs, run, region } = loaderData;
+  const { organisation, canEdit, scenario, document, runs, run } = loaderData;
+  const runResult = useMemo(() => (run ? fromJsonText(run.result) : null), [run?.result]);
+  const region = useMemo(() => (loaderData.region ? fromJsonText(loaderData.region) : null), [loaderData.region]);
   const api = `/api/v1/o/${organisation.slug}/scenarios/${scenario.id}`;
   const navigate = useNavigate();
   const saver = useFetcher<ApiReply>();
@@ -130,7 +136,7 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
   const addSiteAndSave = useCallback((lat: number, lon: number) => save(addSite(doc, { lat, lon }).doc), [save, doc]);
 
   const showWhatIf = useCallback((result: ResultDocument | null, elapsedMs?: number) => setWhatIf(result ? { result, elapsedMs } : null), []);
-  const shown: ResultDocument | null = whatIf?.result ?? run?.result ?? null;
+  const shown: ResultDocument | null = whatIf?.result ?? runResult;
   const availableRules = shown ? rulesIn(shown) : [];
   const activeRule = availableRules.includes(rule) ? rule : (availableRules[0] ?? "choice");
   const selectedLines = useMemo(() => (lineId ? [lineId] : doc.serviceLines.map((line) => line.id)), [lineId, doc.serviceLines]);
@@ -251,7 +257,7 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
         {run && (
           <span className="text-xs text-ink-soft" data-testid="run-summary">
             Run {run.id}: {run.converged ? "every rule converged" : "some rules did not converge"}, solved in {run.durationMs.toFixed(0)} ms. Price of anarchy{" "}
-            {typeof run.result.priceOfAnarchy === "number" ? run.result.priceOfAnarchy.toFixed(3) : "–"}.{" "}
+            {typeof run.priceOfAnarchy === "number" ? run.priceOfAnarchy.toFixed(3) : "–"}.{" "}
             <a className="underline" href={`/api/v1/o/${organisation.slug}/runs/${run.id}?format=csv&file=results-sites.csv`} download>
               Results by site (CSV)
             </a>{" "}
@@ -388,7 +394,7 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
             result={shown}
             label={whatIf ? "the what-if (not saved)" : run ? `run ${run.id} (${new Date(run.createdAt).toLocaleString("en-GB")})` : ""}
             lineIds={selectedLines}
-            doc={whatIf || !run ? doc : run.input}
+            doc={whatIf || !run ? doc : (run.input ?? document)}
             siteNames={siteNames}
           />
         ) : (
