@@ -157,7 +157,7 @@ export class SolvePool<Jobs extends JobMap = SolveJobs> {
       reject(
         new SolvePoolError(
           503,
-          `The server is busy: all ${this.options.size} solve workers are working and ${waiting} solves are waiting. Try again in about ${retryAfterSeconds} s.`,
+          `The server is busy: ${this.options.size === 1 ? "its one solve worker is" : `all ${this.options.size} solve workers are`} working and ${waiting} ${waiting === 1 ? "solve is" : "solves are"} waiting. Try again in about ${retryAfterSeconds} s.`,
           retryAfterSeconds,
         ),
       );

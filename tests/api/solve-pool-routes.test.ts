@@ -93,7 +93,7 @@ describe("a full pool", () => {
       expect(Number(busy.headers.get("Retry-After"))).toBeGreaterThanOrEqual(1);
       const message = (busy.body as { error: { status: number; message: string } }).error;
       expect(message.status).toBe(503);
-      expect(message.message).toMatch(/^The server is busy: all 1 solve workers are working and 0 solves are waiting\. Try again in about \d+ s\.$/);
+      expect(message.message).toMatch(/^The server is busy: its one solve worker is working and 0 solves are waiting\. Try again in about \d+ s\.$/);
 
       const before = await database.db.select({ id: runs.id }).from(runs).where(eq(runs.scenarioId, scenarioId));
       const run = await call(scenarioRuns, `/api/v1/o/${tenant.organisation.slug}/scenarios/${scenarioId}/runs`, { org: tenant.organisation.slug, id: String(scenarioId) }, {

@@ -120,7 +120,7 @@ describe("a bounded queue", () => {
 
     const refused = await refusal(pool.run("solve", { input: smallScenario(), choices: {} }));
     expect(refused.status).toBe(503);
-    expect(refused.message).toMatch(/^The server is busy: all 1 solve workers are working and 2 solves are waiting\. Try again in about \d+ s\.$/);
+    expect(refused.message).toMatch(/^The server is busy: its one solve worker is working and 2 solves are waiting\. Try again in about \d+ s\.$/);
     expect(refused.retryAfterSeconds).toBeGreaterThanOrEqual(1);
 
     held.open();
