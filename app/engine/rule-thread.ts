@@ -1,30 +1,12 @@
 /**
  * Node only (the CLI): solves some of a scenario's rules on a worker thread while the calling
  * thread solves the others, so a large scenario uses two cores. The worker runs
- * `rule-thread-entry.ts` from source through tsx's loader (the CLI itself runs under tsx).
+ * `rule-thread-entry.ts` from source (`typescript-worker.ts`).
  * Results of the two threads are joined by `mergeScenarioResults`.
  */
-import { createRequire } from "node:module";
-import { readFileSync } from "node:fs";
-import path from "node:path";
-import { pathToFileURL } from "node:url";
-import { Worker } from "node:worker_threads";
 import type { RuleKey } from "./problem";
 import type { ScenarioResult } from "./solve-scenario";
-
-const BOOTSTRAP = `
-const { workerData } = require("node:worker_threads");
-import(workerData.tsxApi).then((tsx) => { tsx.register(); return import(workerData.entry); });
-`;
-
-/** tsx's ES-module `register` API (its default entry does not load TypeScript in worker threads). */
-function tsxApiUrl(): string {
-  const manifestPath = createRequire(import.meta.url).resolve("tsx/package.json");
-  const manifest = JSON.parse(readFileSync(manifestPath, "utf8")) as { exports?: Record<string, { import?: { default?: string } }> };
-  const target = manifest.exports?.["./esm/api"]?.import?.default;
-  if (!target) throw new Error(`tsx at ${path.dirname(manifestPath)} has no "./esm/api" import export.`);
-  return pathToFileURL(path.join(path.dirname(manifestPath), target)).href;
-}
+import { startTypeScriptWorker } from "./typescript-worker";
 
 export interface RuleThreadRequest {
   /** The scenario document as read (the worker validates it again, as the caller does). */
@@ -41,7 +23,7 @@ export type RuleThreadReply = { ok: true; result: ScenarioResult } | { ok: false
  */
 export function solveRulesOnThread(request: RuleThreadRequest): { result: Promise<ScenarioResult>; stop: () => void } {
   const entry = new URL("./rule-thread-entry.ts", import.meta.url).href;
-  const worker = new Worker(BOOTSTRAP, { eval: true, workerData: { tsxApi: tsxApiUrl(), entry } });
+  const worker = startTypeScriptWorker(entry);
   worker.postMessage(request);
   const result = new Promise<ScenarioResult>((resolve, reject) => {
     worker.once("message", (reply: RuleThreadReply) => {

@@ -15,13 +15,13 @@
  * Each worker runs `solve-worker.ts` from source through tsx's loader, in development, tests and
  * production alike (DEVELOPERS.md, "Solves run on worker threads, from source").
  */
-import { existsSync, readFileSync } from "node:fs";
-import { createRequire } from "node:module";
+import { existsSync } from "node:fs";
 import os from "node:os";
 import path from "node:path";
 import { fileURLToPath, pathToFileURL } from "node:url";
-import { Worker } from "node:worker_threads";
+import type { Worker } from "node:worker_threads";
 import { config } from "~/config.server";
+import { startTypeScriptWorker } from "~/engine/typescript-worker";
 import { rebuildThrown, type JobMap, type JobMessage, type JobReply, type SolveJobs } from "./solve-jobs";
 
 /** Why the pool could not give an answer (the job itself never threw). */
@@ -78,29 +78,6 @@ interface Slot {
 }
 
 /**
- * Workers load TypeScript through tsx (a runtime dependency). `--import tsx` in a worker's execArgv
- * does not reach the worker's own module loader on Node 20, so a two-line bootstrap registers
- * tsx's loader inside the thread and then imports the entry.
- */
-const BOOTSTRAP = `
-const { workerData } = require("node:worker_threads");
-import(workerData.tsxApi).then((tsx) => { tsx.register(); return import(workerData.entry); });
-`;
-
-/**
- * tsx's `register` API as an ES module. `require.resolve` would pick the package's CommonJS build
- * of it, which cannot be imported into a worker, and tsx's default entry skips worker threads; so
- * the import condition of its `./esm/api` export is read from its manifest.
- */
-function tsxApiUrl(): string {
-  const manifestPath = createRequire(import.meta.url).resolve("tsx/package.json");
-  const manifest = JSON.parse(readFileSync(manifestPath, "utf8")) as { exports?: Record<string, { import?: { default?: string } }> };
-  const target = manifest.exports?.["./esm/api"]?.import?.default;
-  if (!target) throw new Error(`tsx at ${path.dirname(manifestPath)} has no "./esm/api" import export; the solve workers need it to load TypeScript.`);
-  return pathToFileURL(path.join(path.dirname(manifestPath), target)).href;
-}
-
-/**
  * `app/models/solve-worker.ts`, found by walking up from this module: it sits beside it in
  * development and tests, and two or three levels above the bundle chunk in production
  * (`build/server/…`), so no single relative path fits both.
@@ -121,7 +98,6 @@ export class SolvePool<Jobs extends JobMap = SolveJobs> {
   /** Waiting jobs not yet handed to a worker (first in, first out). */
   private readonly queue: Job[] = [];
   private readonly entry: string;
-  private readonly tsxApi: string;
   private nextId = 1;
   private replaced = 0;
   private closed = false;
@@ -133,7 +109,6 @@ export class SolvePool<Jobs extends JobMap = SolveJobs> {
     if (!(Number.isInteger(options.queueLimit) && options.queueLimit >= 0)) throw new RangeError(`queueLimit must be a whole number ≥ 0, got ${options.queueLimit}`);
     if (!(options.timeoutMs > 0)) throw new RangeError(`timeoutMs must be > 0, got ${options.timeoutMs}`);
     this.entry = options.entry ?? defaultWorkerEntry();
-    this.tsxApi = tsxApiUrl();
   }
 
   /**
@@ -189,7 +164,7 @@ export class SolvePool<Jobs extends JobMap = SolveJobs> {
   }
 
   private startWorker(): Slot {
-    const worker = new Worker(BOOTSTRAP, { eval: true, workerData: { tsxApi: this.tsxApi, entry: this.entry } });
+    const worker = startTypeScriptWorker(this.entry);
     const slot: Slot = { worker, running: null, next: null, startedAt: 0, timer: null, retiring: false, lastError: null };
     this.slots.push(slot);
     worker.on("message", (reply: JobReply) => this.settle(slot, reply));
