@@ -137,30 +137,19 @@ export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws
     const limit = cheapest + width;
     let sum = 0;
     const first = kept;
-    if (scanRow) {
-      for (let j = 0; j < m; j++) {
-        const g = w[j] + pairCost[row + j];
-        if (g <= limit) {
-          const weight = Math.exp(-theta * (g - cheapest));
-          ws.columns[kept] = j;
-          ws.shares[kept] = weight;
-          sum += weight;
-          kept++;
-        }
-      }
-    } else {
-      for (let k = 0; k < listLength; k++) {
-        const c = listedCost[base + k];
-        if (lowestSiteCost + c > limit) break;
-        const j = listed[base + k];
-        const g = w[j] + c;
-        if (g <= limit) {
-          const weight = Math.exp(-theta * (g - cheapest));
-          ws.columns[kept] = j;
-          ws.shares[kept] = weight;
-          sum += weight;
-          kept++;
-        }
+    // The whole row, or the list in increasing pair cost up to the first entry past the limit.
+    const total = scanRow ? m : listLength;
+    for (let k = 0; k < total; k++) {
+      const c = scanRow ? pairCost[row + k] : listedCost[base + k];
+      if (!scanRow && lowestSiteCost + c > limit) break;
+      const j = scanRow ? k : listed[base + k];
+      const g = w[j] + c;
+      if (g <= limit) {
+        const weight = Math.exp(-theta * (g - cheapest));
+        ws.columns[kept] = j;
+        ws.shares[kept] = weight;
+        sum += weight;
+        kept++;
       }
     }
     const inclusive = cheapest - Math.log(sum) / theta;
