@@ -3,7 +3,6 @@
  * by running the real command line in a child process.
  */
 import { spawn } from "node:child_process";
-import { join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { describe, expect, it } from "vitest";
 
@@ -11,8 +10,8 @@ const root = fileURLToPath(new URL("../../..", import.meta.url));
 const fixtures = "tests/engine/scenario/fixtures";
 
 /**
- * Runs `tsx app/engine/cli.ts …` exactly as `npm run solve --` does — the same binary `npx tsx`
- * resolves to, called directly because npx's own start-up costs seconds per case.
+ * Runs `node --import tsx app/engine/cli.ts …` exactly as `npm run solve --` does, called directly
+ * because npm's own start-up costs time per case.
  */
 function solve(...args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
   return solveWith({}, ...args);
@@ -20,7 +19,7 @@ function solve(...args: string[]): Promise<{ code: number | null; stdout: string
 
 function solveWith(env: Record<string, string>, ...args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
   return new Promise((resolve, reject) => {
-    const child = spawn(join(root, "node_modules", ".bin", "tsx"), ["app/engine/cli.ts", ...args], { cwd: root, env: { ...process.env, ...env } });
+    const child = spawn(process.execPath, ["--import", "tsx", "app/engine/cli.ts", ...args], { cwd: root, env: { ...process.env, ...env } });
     let stdout = "";
     let stderr = "";
     child.stdout.setEncoding("utf8").on("data", (chunk: string) => (stdout += chunk));
