@@ -75,6 +75,9 @@ export class SiteInverse {
   /** Slope dx/dw used below the empty cost, and the largest slope ever reported. */
   private readonly maxLoadSlope: number;
   private guess = 0;
+  /** The last point where the inversion evaluated the curve's slope, and the slope there. */
+  private slopeAt = NaN;
+  private slopeThere = 0;
   /** Slope beyond a volume bound. */
   private readonly boundSlope: number;
   /** Curve cost at the lower and upper bound (−∞ / +∞ when there is none). */
@@ -135,6 +138,8 @@ export class SiteInverse {
       // Converged when the bracket or the residual is at rounding level.
       if (Math.abs(value) <= 4e-16 * w || hi - lo <= 4e-16 * curve.capacity) break;
       const slope = curve.slope(x);
+      this.slopeAt = x;
+      this.slopeThere = slope;
       const newton = slope > 0 && Number.isFinite(slope) ? x - value / slope : NaN;
       // A Newton step at rounding level ends it. (Tested before the bracket: such a step may
       // round onto the bracket's end, and bisecting a nearly flat cost from there took dozens
@@ -153,7 +158,8 @@ export class SiteInverse {
     if (this.closed) return 1;
     if (this.atBound(w)) return this.boundSlope;
     if (w <= this.emptyCost) return this.maxLoadSlope;
-    const slope = this.curve.slope(x);
+    // The inversion that produced x usually evaluated the slope there already.
+    const slope = x === this.slopeAt ? this.slopeThere : this.curve.slope(x);
     return slope > 0 ? Math.min(1 / slope, this.maxLoadSlope) : this.maxLoadSlope;
   }
 }
