@@ -100,3 +100,61 @@ function kthSmallest(values: Float64Array, length: number, k: number): number {
   }
   return values[k];
 }
+
+/** min_j w_j over the sites (the bound that lets a list scan stop early). */
+export function lowestCost(w: Float64Array): number {
+  let lowest = Infinity;
+  for (let j = 0; j < w.length; j++) if (w[j] < lowest) lowest = w[j];
+  return lowest;
+}
+
+/**
+ * The site with the lowest cost w_j + pairCost(i, j) for source i, the lowest index among exact
+ * ties (−1 when no site is allowed). Reads the sorted list until `lowest` + pair cost exceeds the
+ * best so far, and the whole row only when a site off the list could still be cheaper —
+ * the same answer as a scan of the row.
+ */
+export function cheapestSite(lists: NearestSites, pairCost: Float64Array, m: number, w: Float64Array, lowest: number, i: number): number {
+  const base = i * lists.perSource;
+  let best = Infinity;
+  let bestSite = -1;
+  for (let k = 0; k < lists.count[i]; k++) {
+    const c = lists.costs[base + k];
+    if (lowest + c > best) break;
+    const j = lists.sites[base + k];
+    const g = w[j] + c;
+    if (g < best || (g === best && j < bestSite)) {
+      best = g;
+      bestSite = j;
+    }
+  }
+  if (lowest + lists.bound[i] <= best) {
+    const row = i * m;
+    for (let j = 0; j < m; j++) {
+      const g = w[j] + pairCost[row + j];
+      if (g < best || (g === best && j < bestSite)) {
+        best = g;
+        bestSite = j;
+      }
+    }
+  }
+  return bestSite;
+}
+
+/** The sites j with w_j + pairCost(i, j) ≤ limit, in increasing index order (same reading rule as `cheapestSite`). */
+export function sitesWithin(lists: NearestSites, pairCost: Float64Array, m: number, w: Float64Array, lowest: number, i: number, limit: number): number[] {
+  const base = i * lists.perSource;
+  const found: number[] = [];
+  if (lowest + lists.bound[i] <= limit) {
+    const row = i * m;
+    for (let j = 0; j < m; j++) if (w[j] + pairCost[row + j] <= limit) found.push(j);
+    return found;
+  }
+  for (let k = 0; k < lists.count[i]; k++) {
+    const c = lists.costs[base + k];
+    if (lowest + c > limit) break;
+    const j = lists.sites[base + k];
+    if (w[j] + c <= limit) found.push(j);
+  }
+  return found.sort((a, b) => a - b);
+}

@@ -25,6 +25,7 @@
 import type { CostView } from "./logit-newton";
 import { luSolveInPlace } from "./dense-linear";
 import { reservationRange } from "./outside-option";
+import { cheapestSite, lowestCost, nearestSites, sitesWithin } from "./nearest-sites";
 
 /** An option within this many 1/θ of a source's cheapest counts as tied (logit share ≥ ~1e-10). */
 const TIE_WIDTH = 23;
@@ -65,6 +66,7 @@ interface Group {
 
 export function wardropFinish(view: CostView, w: Float64Array, theta: number, maxIterations = Infinity, maxRounds = 40): FinishOutcome {
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
+  const lists = nearestSites(pairCost, n, m);
   const tie: SourceTie[] = initialStructure(view, w, theta);
   const flow = new Float64Array(n * m);
   const balked = new Float64Array(n);
@@ -125,19 +127,13 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
     }
     // Wardrop check: no cheaper option left unused, outside option respected.
     let changed = false;
+    const lowest = lowestCost(siteCost);
     for (let i = 0; i < n; i++) {
       if (!(demand[i] > 0)) continue;
       const row = i * m;
-      let cheapest = Infinity;
-      let cheapestSite = -1;
-      for (let j = 0; j < m; j++) {
-        const g = siteCost[j] + pairCost[row + j];
-        if (g < cheapest) {
-          cheapest = g;
-          cheapestSite = j;
-        }
-      }
-      if (cheapestSite < 0) continue;
+      const best = cheapestSite(lists, pairCost, m, siteCost, lowest, i);
+      if (best < 0) continue;
+      const cheapest = siteCost[best] + pairCost[row + best];
       const t = tie[i];
       const o = outsideCost[i];
       const { high } = Number.isFinite(o) ? reservationRange(o, outsideSpread[i]) : { high: Infinity };
@@ -145,8 +141,8 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
       if (t.allBalk || t.sites.length === 0) {
         if (cheapest < (outsideSpread[i] === 0 ? o : high) - tolerance) {
           t.allBalk = false;
-          t.sites = [cheapestSite];
-          t.forced.add(cheapestSite);
+          t.sites = [best];
+          t.forced.add(best);
           t.outsideTie = outsideSpread[i] === 0 && Number.isFinite(o);
           t.forcedTie = t.outsideTie;
           changed = true;
@@ -187,15 +183,13 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
 function initialStructure(view: CostView, w: Float64Array, theta: number): SourceTie[] {
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
   const width = TIE_WIDTH / theta;
+  const lists = nearestSites(pairCost, n, m);
+  const lowest = lowestCost(w);
   const ties: SourceTie[] = [];
   for (let i = 0; i < n; i++) {
-    const row = i * m;
-    let cheapest = Infinity;
-    for (let j = 0; j < m; j++) cheapest = Math.min(cheapest, w[j] + pairCost[row + j]);
-    const sites: number[] = [];
-    if (demand[i] > 0 && cheapest < Infinity) {
-      for (let j = 0; j < m; j++) if (w[j] + pairCost[row + j] <= cheapest + width) sites.push(j);
-    }
+    const best = cheapestSite(lists, pairCost, m, w, lowest, i);
+    const cheapest = best < 0 ? Infinity : w[best] + pairCost[i * m + best];
+    const sites = demand[i] > 0 && cheapest < Infinity ? sitesWithin(lists, pairCost, m, w, lowest, i, cheapest + width) : [];
     const o = outsideCost[i];
     let outsideTie = false;
     let allBalk = sites.length === 0 && Number.isFinite(o);
