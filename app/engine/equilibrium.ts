@@ -40,6 +40,9 @@ const FINISH_ATTEMPTS = [
 
 const CONTINUATION_CUTOFF = 25;
 
+/** Newton steps per finish attempt's continuation at most (see `solveWardropOnCurves`). */
+const ATTEMPT_ITERATIONS = 150;
+
 /** Active-set rounds per finish attempt: a right structure settles in ≤ 5; a wrong one only degrades. */
 const FINISH_ROUNDS = 8;
 
@@ -174,7 +177,10 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
     const last = attempt === FINISH_ATTEMPTS.length - 1;
     const finishTheta = baseFinishTheta * FINISH_ATTEMPTS[attempt].thetaScale;
     const tolerance = FINISH_ATTEMPTS[attempt].handover * view.totalDemand;
-    const path = logitContinuation(view, w, workspace, fromTheta, finishTheta, tolerance, Math.max(budget, 1));
+    // Each attempt's Newton steps are capped: at large θ Newton can stall short of a tight
+    // hand-over (the logit residual is nearly piecewise constant there), and the next attempt's
+    // larger θ then does better than spending the whole budget at this one.
+    const path = logitContinuation(view, w, workspace, fromTheta, finishTheta, tolerance, Math.max(Math.min(budget, ATTEMPT_ITERATIONS), 1));
     iterations += path.iterations;
     budget -= path.iterations;
     const theta = path.theta;

@@ -153,6 +153,20 @@ export class SiteInverse {
     return x;
   }
 
+  /**
+   * How finely a cost of w computed from terms of size `scale` (a level plus an offset) pins the
+   * inflow down: half the change of inflow over a few rounding steps of w either side. Near an
+   * empty site with many teams the wait is so flat in the load that this is far from zero.
+   */
+  loadResolution(w: number, scale = Math.abs(w)): number {
+    if (this.closed) return 0;
+    const step = 8 * Number.EPSILON * Math.max(Math.abs(w), scale);
+    const guess = this.guess;
+    const spread = Math.abs(this.load(w + step) - this.load(w - step)) / 2;
+    this.guess = guess;
+    return spread;
+  }
+
   /** dx/dw at cost w. */
   loadSlope(w: number, x: number): number {
     if (this.closed) return 1;
