@@ -67,32 +67,24 @@ export function WhatIfPanel({
         <label className="text-sm">
           <span className="font-semibold">Willingness to travel (κ)</span>
           <span className="block text-xs text-ink-soft">km a patient would travel to wait one week less</span>
-          <input
-            type="range"
-            min={5}
-            max={50}
-            step={1}
+          <Slider
+            range={[5, 50, 1]}
             value={whatIf.kmPerWeek}
-            onChange={(event) => set({ kmPerWeek: Number(event.target.value) })}
-            aria-label="Willingness to travel, km per week"
-            className="w-full"
+            onChange={(kmPerWeek) => set({ kmPerWeek })}
+            label="Willingness to travel, km per week"
+            shown={`${whatIf.kmPerWeek} km/week`}
           />
-          <span className="num block">{whatIf.kmPerWeek} km/week</span>
         </label>
         <label className="text-sm">
           <span className="font-semibold">Private-care cost</span>
           <span className="block text-xs text-ink-soft">every practice's outside-option cost, relative to the scenario</span>
-          <input
-            type="range"
-            min={0.5}
-            max={1.5}
-            step={0.05}
+          <Slider
+            range={[0.5, 1.5, 0.05]}
             value={whatIf.outsideCostFactor}
-            onChange={(event) => set({ outsideCostFactor: Number(event.target.value) })}
-            aria-label="Private-care cost, share of the scenario's"
-            className="w-full"
+            onChange={(outsideCostFactor) => set({ outsideCostFactor })}
+            label="Private-care cost, share of the scenario's"
+            shown={`${Math.round(whatIf.outsideCostFactor * 100)}% of the scenario's`}
           />
-          <span className="num block">{Math.round(whatIf.outsideCostFactor * 100)}% of the scenario's</span>
         </label>
         <fieldset className="text-sm">
           <legend className="font-semibold">Extra teams at a site</legend>
@@ -113,17 +105,7 @@ export function WhatIfPanel({
               ))}
             </select>
           </div>
-          <input
-            type="range"
-            min={0}
-            max={10}
-            step={1}
-            value={extra.teams}
-            onChange={(event) => set({ extraTeams: { ...extra, teams: Number(event.target.value) } })}
-            aria-label="Extra teams"
-            className="w-full"
-          />
-          <span className="num block">+{extra.teams} teams</span>
+          <Slider range={[0, 10, 1]} value={extra.teams} onChange={(teams) => set({ extraTeams: { ...extra, teams } })} label="Extra teams" shown={`+${extra.teams} teams`} />
         </fieldset>
       </div>
       <div className="flex flex-wrap items-center gap-3 text-sm">
@@ -179,5 +161,30 @@ export function WhatIfPanel({
         </form>
       )}
     </div>
+  );
+}
+
+/** A what-if slider (range as [min, max, step]) with its value shown beneath in its unit. */
+function Slider({ range: [min, max, step], value, onChange, label, shown }: {
+  range: [number, number, number];
+  value: number;
+  onChange: (value: number) => void;
+  label: string;
+  shown: string;
+}) {
+  return (
+    <>
+      <input
+        type="range"
+        min={min}
+        max={max}
+        step={step}
+        value={value}
+        onChange={(event) => onChange(Number(event.target.value))}
+        aria-label={label}
+        className="w-full"
+      />
+      <span className="num block">{shown}</span>
+    </>
   );
 }
