@@ -6,7 +6,7 @@
  */
 import type { PlanGate } from "~/services/plans";
 import { listOrganisationsForUser } from "./organisations.server";
-import { checkWithinPlan, type PlanSubject } from "./plan-limits.server";
+import { checkWithinPlanGates, type PlanSubject } from "./plan-limits.server";
 
 export interface PlanRefusal {
   gate: PlanGate;
@@ -36,11 +36,8 @@ export async function planRefusal(
   size: Partial<ScenarioSize> = {},
   now: Date = new Date(),
 ): Promise<PlanRefusal | null> {
-  for (const gate of gates) {
-    const check = await checkWithinPlan(organisation, gate, gate === "problemSize" ? size : {}, now);
-    if (!check.ok) return { gate: check.gate, message: check.message };
-  }
-  return null;
+  const check = await checkWithinPlanGates(organisation, gates, size, now);
+  return check.ok ? null : { gate: check.gate, message: check.message };
 }
 
 /**

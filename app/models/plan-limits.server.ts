@@ -27,9 +27,28 @@ export async function checkWithinPlan(
   size: { practices?: number; sites?: number } = {},
   now: Date = new Date(),
 ): Promise<PlanCheck> {
+  return checkWithinPlanGates(organisation, [gate], size, now);
+}
+
+/**
+ * The first of `gates` (in the order given) that the plan refuses, or the last check when all
+ * pass; the subscription and the usage counts are read once for all of them. `size` applies to
+ * the "problemSize" gate.
+ */
+export async function checkWithinPlanGates(
+  organisation: PlanSubject,
+  gates: readonly PlanGate[],
+  size: { practices?: number; sites?: number } = {},
+  now: Date = new Date(),
+): Promise<PlanCheck> {
   const standing = await getPlanStanding(organisation, now);
-  const usage = gate === "seats" || gate === "scenarios" ? await countUsage(organisation.id, now) : {};
-  return checkPlanLimit(standing, gate, { ...usage, ...size });
+  const usage = gates.some((gate) => gate === "seats" || gate === "scenarios") ? await countUsage(organisation.id, now) : {};
+  let check: PlanCheck = { ok: true };
+  for (const gate of gates) {
+    check = checkPlanLimit(standing, gate, { ...usage, ...(gate === "problemSize" ? size : {}) });
+    if (!check.ok) return check;
+  }
+  return check;
 }
 
 /** Resolves when the action fits the plan; otherwise throws a 403 whose text names the limit. */
