@@ -70,17 +70,24 @@ export interface TokenHolder {
 }
 
 /** The live token's holder with their current membership, or null (unknown, revoked, or no longer a member). */
+const LAST_USED_RESOLUTION_MS = 60_000;
+
 export async function authenticateApiToken(token: string): Promise<TokenHolder | null> {
   if (!token.startsWith(TOKEN_PREFIX)) return null;
   const db = await getDb();
   const [row] = await db
-    .select({ tokenId: apiTokens.id, user: users, organisation: organisations, membership: memberships })
+    .select({ tokenId: apiTokens.id, lastUsedAt: apiTokens.lastUsedAt, user: users, organisation: organisations, membership: memberships })
     .from(apiTokens)
     .innerJoin(users, eq(users.id, apiTokens.userId))
     .innerJoin(organisations, eq(organisations.id, apiTokens.organisationId))
     .innerJoin(memberships, and(eq(memberships.organisationId, apiTokens.organisationId), eq(memberships.userId, apiTokens.userId)))
     .where(and(eq(apiTokens.tokenHash, hashToken(token)), isNull(apiTokens.revokedAt)));
   if (!row) return null;
-  await db.update(apiTokens).set({ lastUsedAt: new Date() }).where(eq(apiTokens.id, row.tokenId));
-  return row;
+  // "Last used" to the minute: a busy client would otherwise write the token's row on every call.
+  const now = new Date();
+  if (!row.lastUsedAt || now.getTime() - row.lastUsedAt.getTime() >= LAST_USED_RESOLUTION_MS) {
+    await db.update(apiTokens).set({ lastUsedAt: now }).where(eq(apiTokens.id, row.tokenId));
+  }
+  const { lastUsedAt: _, ...holder } = row;
+  return holder;
 }
