@@ -141,10 +141,12 @@ export class SiteInverse {
       this.slopeAt = x;
       this.slopeThere = slope;
       const newton = slope > 0 && Number.isFinite(slope) ? x - value / slope : NaN;
-      // A Newton step at rounding level ends it. (Tested before the bracket: such a step may
-      // round onto the bracket's end, and bisecting a nearly flat cost from there took dozens
-      // of steps; the cost's own rounding also keeps |value| from reaching 4e-16·w.)
-      if (Math.abs(newton - x) <= 1e-15 * curve.capacity) break;
+      // A Newton step at rounding level ends it when the cost is near w. (Tested before the
+      // bracket: such a step may round onto the bracket's end, and bisecting a nearly flat cost
+      // from there took dozens of steps; the cost's own rounding also keeps |value| from reaching
+      // 4e-16·w.) Next to capacity the step is tiny too — it is the distance to the pole — but
+      // the cost is far above w there, so the iteration goes on.
+      if (Math.abs(newton - x) <= 1e-15 * curve.capacity && Math.abs(value) <= 1e-9 * Math.abs(w)) break;
       // Convex increasing cost: Newton from the right of the root stays right; from the left it
       // may overshoot, possibly past capacity — then fall back to bisection.
       x = newton > lo && newton < hi ? newton : 0.5 * (lo + hi);
