@@ -130,18 +130,23 @@ export async function createRun(
   return { ok: true, run: summary(row, outcome.result.priceOfAnarchy, who?.login ?? null) };
 }
 
+/** The columns behind a `RunSummary` (without its creator's login). */
+const summaryColumns = {
+  id: runs.id,
+  scenarioId: runs.scenarioId,
+  label: runs.label,
+  converged: runs.converged,
+  durationMs: runs.durationMs,
+  createdBy: runs.createdBy,
+  createdAt: runs.createdAt,
+};
+
 /** A scenario's runs, newest first, without their payloads. */
 export async function listRuns(organisationId: number, scenarioId: number, access: WholeRunAccess = "all"): Promise<RunSummary[]> {
   const db = await getDb();
   const rows = await db
     .select({
-      id: runs.id,
-      scenarioId: runs.scenarioId,
-      label: runs.label,
-      converged: runs.converged,
-      durationMs: runs.durationMs,
-      createdBy: runs.createdBy,
-      createdAt: runs.createdAt,
+      ...summaryColumns,
       createdByLogin: users.login,
       // Read inside the database: results run to hundreds of kilobytes.
       priceOfAnarchy: sql<number | null>`(${runs.result} ->> 'priceOfAnarchy')::float8`,
@@ -172,13 +177,7 @@ export async function getRun(
   const [found] = await db
     .select({
       run: {
-        id: runs.id,
-        scenarioId: runs.scenarioId,
-        label: runs.label,
-        converged: runs.converged,
-        durationMs: runs.durationMs,
-        createdBy: runs.createdBy,
-        createdAt: runs.createdAt,
+        ...summaryColumns,
         input: runs.input,
         result: options.periods === false ? sql<Record<string, unknown>>`${runs.result} - 'periods'` : runs.result,
       },

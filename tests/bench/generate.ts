@@ -31,8 +31,11 @@ export const DEMO_LIKE: RegionSpec = { name: "demo-like 40×7×4", sources: 40, 
 export const LARGE: RegionSpec = { name: "large 500×40", sources: 500, sites: 40, lines: 1, widthKm: 160, heightKm: 180, towns: 25, utilisation: 0.88, seed: 23, urgentShare: 0 };
 export const NATIONAL: RegionSpec = { name: "national 7000×400", sources: 7000, sites: 400, lines: 1, widthKm: 600, heightKm: 900, towns: 150, utilisation: 0.88, seed: 37, urgentShare: 0 };
 
-export function generateRegion(spec: RegionSpec): LineProblem[] {
-  const random = seededRandom(spec.seed);
+/**
+ * Points in km, clustered around weighted towns (gaussian spread of a quarter of a town's share
+ * of the area), drawn from `random`; the towns are drawn first.
+ */
+function townPlacer(spec: RegionSpec, random: () => number): () => { x: number; y: number } {
   const gaussian = (): number => Math.sqrt(-2 * Math.log(1 - random())) * Math.cos(2 * Math.PI * random());
   const towns = Array.from({ length: spec.towns }, () => ({ x: random() * spec.widthKm, y: random() * spec.heightKm, weight: 0.3 + random() }));
   const totalWeight = towns.reduce((s, t) => s + t.weight, 0);
@@ -42,13 +45,18 @@ export function generateRegion(spec: RegionSpec): LineProblem[] {
     return towns[towns.length - 1];
   };
   const townRadius = Math.sqrt((spec.widthKm * spec.heightKm) / spec.towns) / 4;
-  const place = () => {
+  return () => {
     const town = pickTown();
     return {
       x: Math.min(Math.max(town.x + gaussian() * townRadius, 0), spec.widthKm),
       y: Math.min(Math.max(town.y + gaussian() * townRadius, 0), spec.heightKm),
     };
   };
+}
+
+export function generateRegion(spec: RegionSpec): LineProblem[] {
+  const random = seededRandom(spec.seed);
+  const place = townPlacer(spec, random);
   const sources = Array.from({ length: spec.sources }, place);
   const sites = Array.from({ length: spec.sites }, place);
   const problems: LineProblem[] = [];
@@ -122,15 +130,9 @@ export function generateRegion(spec: RegionSpec): LineProblem[] {
  */
 export function generateScenarioDocument(spec: RegionSpec): Record<string, unknown> {
   const random = seededRandom(spec.seed + 1);
-  const gaussian = (): number => Math.sqrt(-2 * Math.log(1 - random())) * Math.cos(2 * Math.PI * random());
-  const towns = Array.from({ length: spec.towns }, () => ({ x: random() * spec.widthKm, y: random() * spec.heightKm, weight: 0.3 + random() }));
-  const totalWeight = towns.reduce((s, t) => s + t.weight, 0);
-  const townRadius = Math.sqrt((spec.widthKm * spec.heightKm) / spec.towns) / 4;
+  const placeKm = townPlacer(spec, random);
   const place = () => {
-    let r = random() * totalWeight;
-    const town = towns.find((t) => (r -= t.weight) <= 0) ?? towns[towns.length - 1];
-    const x = Math.min(Math.max(town.x + gaussian() * townRadius, 0), spec.widthKm);
-    const y = Math.min(Math.max(town.y + gaussian() * townRadius, 0), spec.heightKm);
+    const { x, y } = placeKm();
     return { lat: -20 + y / 111, lon: -20 + x / 111 };
   };
   const line = "line1";

@@ -1,14 +1,6 @@
 /**
- * Mulberry32 (Tommy Ettinger's public-domain generator): small, fast and seedable, so property tests
- * and benchmarks see the same instances on every run.
+ * Mulberry32 (Tommy Ettinger's public-domain generator): small, fast and seedable, so property
+ * tests and benchmarks see the same instances on every run. The demo region is drawn with the
+ * same generator; there is one copy, in `seed/geometry.ts`.
  */
-export function seededRandom(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+export { seededRandom } from "../../seed/geometry";
