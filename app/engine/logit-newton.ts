@@ -26,7 +26,7 @@
 import { logitBalkingShare } from "./outside-option";
 import { choleskySolveInPlace } from "./dense-linear";
 import type { SiteInverse } from "./site-cost-curve";
-import { nearestSites } from "./nearest-sites";
+import { lowestCost, nearestSites } from "./nearest-sites";
 
 /** Options costlier than the cheapest by more than this many 1/θ carry shares below e^-40. */
 export const LOGIT_CUTOFF = 40;
@@ -62,6 +62,15 @@ export class LogitWorkspace {
   hessian: Float64Array;
   step: Float64Array;
   trial: Float64Array;
+  candidates: CandidateSites;
+  /** The block solve's buffers (see `blockNewtonDirection`). */
+  blockRoot: Int32Array;
+  blockSize: Int32Array;
+  blockPosition: Int32Array;
+  blockOffset: Int32Array;
+  blockStart: Int32Array;
+  blockMembers: Int32Array;
+  blockMatrix = new Float64Array(0);
 
   constructor(readonly n: number, readonly m: number) {
     this.rowStart = new Int32Array(n + 1);
@@ -79,6 +88,13 @@ export class LogitWorkspace {
     this.hessian = new Float64Array(m <= DENSE_LIMIT ? m * m : 5 * m);
     this.step = new Float64Array(m);
     this.trial = new Float64Array(m);
+    this.candidates = new CandidateSites(n, m);
+    this.blockRoot = new Int32Array(m);
+    this.blockSize = new Int32Array(m);
+    this.blockPosition = new Int32Array(m);
+    this.blockOffset = new Int32Array(m);
+    this.blockStart = new Int32Array(m);
+    this.blockMembers = new Int32Array(m);
   }
 
   ensureCapacity(needed: number): void {
@@ -94,56 +110,159 @@ export class LogitWorkspace {
 }
 
 /**
+ * Each source's candidate sites: those within `margin` of its cheapest option at the reference
+ * costs (a neighbour list with a skin, as in molecular dynamics; Verlet 1967, *Physical Review*
+ * 159(1)). When no site cost has moved by more than δ since, a site off the list costs more than
+ * the source's cheapest by at least margin − 2δ, so while width + 2δ ≤ margin the list holds
+ * every option within the logit width and the evaluation reads a few entries per source instead
+ * of scanning its nearest-site list (whose early stop is weak when some site is nearly empty).
+ */
+class CandidateSites {
+  pairCost: Float64Array | null = null;
+  margin = 0;
+  /** Largest cost change since the reference, measured by the last `covers`. */
+  drift = Infinity;
+  reference: Float64Array;
+  rowStart: Int32Array;
+  sites = new Int32Array(0);
+  costs = new Float64Array(0);
+
+  constructor(n: number, m: number) {
+    this.reference = new Float64Array(m);
+    this.rowStart = new Int32Array(n + 1);
+  }
+
+  /** Whether the lists still hold every option within `width` of the cheapest at costs w. */
+  covers(pairCost: Float64Array, w: Float64Array, width: number): boolean {
+    if (this.pairCost !== pairCost || this.margin > CANDIDATE_STALE * width) {
+      this.drift = Infinity;
+      return false;
+    }
+    let drift = 0;
+    for (let j = 0; j < w.length; j++) {
+      const a = w[j];
+      const b = this.reference[j];
+      if (a === b) continue;
+      const d = Math.abs(a - b);
+      if (!(d <= drift)) drift = d;
+    }
+    this.drift = drift;
+    return width + 2 * drift <= this.margin;
+  }
+
+  /**
+   * The margin for a rebuild: the width plus a skin of CANDIDATE_SKIN widths when that pays —
+   * the costs last moved by less than the skin (Newton steps near a solution) and sources keep
+   * about one option each (large θ, where scanning for the cheapest, not the shares, is the
+   * work); otherwise none (early steps, long line-search trials, and small θ, where a skin would
+   * take in many more sites).
+   */
+  marginFor(width: number, n: number): number {
+    const stored = this.rowStart[n];
+    const sharp = this.pairCost !== null && stored <= CANDIDATE_SHARP * n;
+    return width * (sharp && 2 * this.drift <= CANDIDATE_SKIN * width ? 1 + CANDIDATE_SKIN : 1);
+  }
+
+  /** Rebuilds the lists at costs w with the given margin (exact: the nearest-site lists' reading rule). */
+  build(view: CostView, w: Float64Array, margin: number): void {
+    const { n, m, demand, pairCost } = view;
+    const { sites: listed, costs: listedCost, count, bound, perSource } = nearestSites(pairCost, n, m);
+    const lowestSiteCost = lowestCost(w);
+    let stored = 0;
+    for (let i = 0; i < n; i++) {
+      this.rowStart[i] = stored;
+      if (!(demand[i] > 0)) continue;
+      const row = i * m;
+      const base = i * perSource;
+      const listLength = count[i];
+      // The list is in increasing pair cost and no site costs less than lowestSiteCost, so once
+      // lowestSiteCost + pair cost reaches the cheapest so far, no later entry can be cheaper.
+      let cheapest = Infinity;
+      for (let k = 0; k < listLength; k++) {
+        const c = listedCost[base + k];
+        if (lowestSiteCost + c >= cheapest) break;
+        const g = w[listed[base + k]] + c;
+        if (g < cheapest) cheapest = g;
+      }
+      // Sites off the list cost at least lowestSiteCost + bound: scan the row only if that could matter.
+      const scanRow = lowestSiteCost + bound[i] <= cheapest + margin;
+      if (scanRow) {
+        for (let j = 0; j < m; j++) {
+          const g = w[j] + pairCost[row + j];
+          if (g < cheapest) cheapest = g;
+        }
+      }
+      if (cheapest === Infinity) continue;
+      if (stored + m > this.sites.length) this.grow(stored + m);
+      const limit = cheapest + margin;
+      // The whole row, or the list in increasing pair cost up to the first entry past the limit.
+      const total = scanRow ? m : listLength;
+      for (let k = 0; k < total; k++) {
+        const c = scanRow ? pairCost[row + k] : listedCost[base + k];
+        if (!scanRow && lowestSiteCost + c > limit) break;
+        const j = scanRow ? k : listed[base + k];
+        if (w[j] + c <= limit) {
+          this.sites[stored] = j;
+          this.costs[stored] = c;
+          stored++;
+        }
+      }
+    }
+    this.rowStart[n] = stored;
+    this.reference.set(w);
+    this.margin = margin;
+    this.pairCost = pairCost;
+  }
+
+  private grow(needed: number): void {
+    const size = Math.max(needed, this.sites.length * 2, 1024);
+    const sites = new Int32Array(size);
+    sites.set(this.sites);
+    const costs = new Float64Array(size);
+    costs.set(this.costs);
+    this.sites = sites;
+    this.costs = costs;
+  }
+}
+
+/** Candidate margin = (1 + CANDIDATE_SKIN) × the logit width; lists wider than CANDIDATE_STALE widths are rebuilt. */
+const CANDIDATE_SKIN = 2;
+const CANDIDATE_STALE = 8;
+/** Candidates per source up to which a skin is worth its wider lists. */
+const CANDIDATE_SHARP = 2;
+
+/**
  * Logit split at site costs w: fills the workspace's kept options and shares, served demand,
  * site inflows and the residual R. Returns ‖R‖₂.
  */
 export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws: LogitWorkspace): number {
-  const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
-  const lists = nearestSites(pairCost, n, m);
-  const { sites: listed, costs: listedCost, count, bound, perSource } = lists;
-  let lowestSiteCost = Infinity;
-  for (let j = 0; j < m; j++) if (w[j] < lowestSiteCost) lowestSiteCost = w[j];
+  const { n, m, demand, outsideCost, outsideSpread } = view;
   const width = (view.cutoff ?? LOGIT_CUTOFF) / theta;
+  const candidates = ws.candidates;
+  if (!candidates.covers(view.pairCost, w, width)) candidates.build(view, w, candidates.marginFor(width, n));
+  const { rowStart: candidateStart, sites: candidateSites, costs: candidateCosts } = candidates;
   ws.inflow.fill(0);
+  ws.ensureCapacity(candidateStart[n]);
   let kept = 0;
   for (let i = 0; i < n; i++) {
     ws.rowStart[i] = kept;
     ws.served[i] = 0;
     ws.servedSlope[i] = 0;
     ws.inclusiveCost[i] = Infinity;
-    if (!(demand[i] > 0)) continue;
-    const row = i * m;
-    const base = i * perSource;
-    const listLength = count[i];
-    // The list is in increasing pair cost and no site costs less than lowestSiteCost, so once
-    // lowestSiteCost + pair cost reaches the cheapest so far, no later entry can be cheaper.
+    const from = candidateStart[i];
+    const to = candidateStart[i + 1];
+    if (from === to) continue;
     let cheapest = Infinity;
-    for (let k = 0; k < listLength; k++) {
-      const c = listedCost[base + k];
-      if (lowestSiteCost + c >= cheapest) break;
-      const g = w[listed[base + k]] + c;
+    for (let k = from; k < to; k++) {
+      const g = w[candidateSites[k]] + candidateCosts[k];
       if (g < cheapest) cheapest = g;
     }
-    // Sites off the list cost at least lowestSiteCost + bound: scan the row only if that could matter.
-    const scanRow = lowestSiteCost + bound[i] <= cheapest + width;
-    if (scanRow) {
-      for (let j = 0; j < m; j++) {
-        const g = w[j] + pairCost[row + j];
-        if (g < cheapest) cheapest = g;
-      }
-    }
-    if (cheapest === Infinity) continue;
-    if (kept + m > ws.columns.length) ws.ensureCapacity(kept + m);
     const limit = cheapest + width;
     let sum = 0;
     const first = kept;
-    // The whole row, or the list in increasing pair cost up to the first entry past the limit.
-    const total = scanRow ? m : listLength;
-    for (let k = 0; k < total; k++) {
-      const c = scanRow ? pairCost[row + k] : listedCost[base + k];
-      if (!scanRow && lowestSiteCost + c > limit) break;
-      const j = scanRow ? k : listed[base + k];
-      const g = w[j] + c;
+    for (let k = from; k < to; k++) {
+      const j = candidateSites[k];
+      const g = w[j] + candidateCosts[k];
       if (g <= limit) {
         const weight = Math.exp(-theta * (g - cheapest));
         ws.columns[kept] = j;
@@ -158,8 +277,9 @@ export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws
     const served = demand[i] * (1 - balkingShare);
     ws.served[i] = served;
     ws.servedSlope[i] *= demand[i];
+    const scale = 1 / sum;
     for (let k = first; k < kept; k++) {
-      ws.shares[k] /= sum;
+      ws.shares[k] *= scale;
       ws.inflow[ws.columns[k]] += served * ws.shares[k];
     }
   }
@@ -236,6 +356,7 @@ function newtonDirection(view: CostView, theta: number, ws: LogitWorkspace): voi
     choleskySolveInPlace(ws.hessian, ws.step, m);
     return;
   }
+  if (blockNewtonDirection(view, theta, ws)) return;
   const diagonal = ws.hessian.subarray(0, m);
   for (let j = 0; j < m; j++) diagonal[j] = ws.loadSlope[j];
   for (let i = 0; i < n; i++) {
@@ -290,6 +411,102 @@ function newtonDirection(view: CostView, theta: number, ws: LogitWorkspace): voi
   }
 }
 
+/** Sites per block beyond which the block solve gives way to conjugate gradients. */
+const BLOCK_LIMIT = 160;
+
+/**
+ * Exact Newton direction when H falls apart into small blocks. Two sites are coupled in H only
+ * through a source that keeps both, so H is block diagonal over the connected groups of sites
+ * that share sources; at large θ most sources keep one site and the groups are small (national
+ * instance: dozens of sites at most), where conjugate gradients need hundreds of products on the
+ * ill-conditioned whole. Each block is assembled and factorised (Cholesky) on its own. Returns
+ * false, having done nothing, when a block has more than BLOCK_LIMIT sites.
+ */
+function blockNewtonDirection(view: CostView, theta: number, ws: LogitWorkspace): boolean {
+  const { n, m } = view;
+  const root = ws.blockRoot;
+  for (let j = 0; j < m; j++) root[j] = j;
+  const find = (j: number): number => {
+    while (root[j] !== j) {
+      root[j] = root[root[j]];
+      j = root[j];
+    }
+    return j;
+  };
+  for (let i = 0; i < n; i++) {
+    const start = ws.rowStart[i];
+    const end = ws.rowStart[i + 1];
+    if (end - start < 2) continue;
+    const first = find(ws.columns[start]);
+    for (let k = start + 1; k < end; k++) {
+      const other = find(ws.columns[k]);
+      if (other !== first) root[other] = first;
+    }
+  }
+  // Blocks: sites numbered within their block, each block's matrix stored at its offset.
+  const size = ws.blockSize;
+  const position = ws.blockPosition;
+  size.fill(0);
+  for (let j = 0; j < m; j++) {
+    const r = find(j);
+    root[j] = r;
+    position[j] = size[r]++;
+    if (size[r] > BLOCK_LIMIT) return false;
+  }
+  // Per block: where its matrix starts, and where its sites are listed in `members`.
+  const offset = ws.blockOffset;
+  const first = ws.blockStart;
+  const members = ws.blockMembers;
+  let total = 0;
+  let listed = 0;
+  for (let j = 0; j < m; j++) {
+    if (root[j] !== j) continue;
+    offset[j] = total;
+    total += size[j] * size[j];
+    first[j] = listed;
+    listed += size[j];
+  }
+  for (let j = 0; j < m; j++) members[first[root[j]] + position[j]] = j;
+  if (ws.blockMatrix.length < total) ws.blockMatrix = new Float64Array(Math.max(total, 2 * ws.blockMatrix.length));
+  const h = ws.blockMatrix;
+  h.fill(0, 0, total);
+  for (let j = 0; j < m; j++) {
+    const r = root[j];
+    h[offset[r] + position[j] * (size[r] + 1)] += ws.loadSlope[j];
+  }
+  for (let i = 0; i < n; i++) {
+    const start = ws.rowStart[i];
+    const end = ws.rowStart[i + 1];
+    if (end === start) continue;
+    const stiff = theta * ws.served[i];
+    const rankOne = stiff - ws.servedSlope[i];
+    const r = root[ws.columns[start]];
+    const base = offset[r];
+    const width = size[r];
+    for (let a = start; a < end; a++) {
+      const pa = ws.shares[a];
+      const ra = position[ws.columns[a]];
+      h[base + ra * (width + 1)] += stiff * pa;
+      const coefficient = rankOne * pa;
+      for (let b = start; b <= a; b++) {
+        const rb = position[ws.columns[b]];
+        h[base + (ra >= rb ? ra * width + rb : rb * width + ra)] -= coefficient * ws.shares[b];
+      }
+    }
+  }
+  // Solve block by block: gather the residual, factorise, scatter the step.
+  for (let j = 0; j < m; j++) {
+    if (root[j] !== j) continue;
+    const width = size[j];
+    const sites = members.subarray(first[j], first[j] + width);
+    const right = ws.trial.subarray(0, width);
+    for (let a = 0; a < width; a++) right[a] = ws.residual[sites[a]];
+    choleskySolveInPlace(h.subarray(offset[j], offset[j] + width * width), right, width);
+    for (let a = 0; a < width; a++) ws.step[sites[a]] = right[a];
+  }
+  return true;
+}
+
 export interface NewtonOutcome {
   iterations: number;
   /** Σ_j |R_j| at exit, referrals/week. */
@@ -302,6 +519,11 @@ function absoluteSum(values: Float64Array): number {
   for (let k = 0; k < values.length; k++) s += Math.abs(values[k]);
   return s;
 }
+
+/** A line search takes a climbing step once its bracket is this narrow relative to the step. */
+const NARROW_BRACKET = 0.1;
+/** Bisect instead of a secant when φ' at the bracket's far end is this many times steeper. */
+const KINK_RATIO = 10;
 
 /**
  * Newton iterations at a fixed θ from the costs in `w` (updated in place) until Σ_j |R_j| ≤
@@ -359,10 +581,22 @@ export function logitNewton(
         } else {
           low = alpha;
           lowSlope = slope;
+          // Still climbing, in a bracket already narrow: take it (the dual has risen).
+          if (high - low <= NARROW_BRACKET * low) {
+            w.set(ws.trial);
+            accepted = true;
+            break;
+          }
         }
         const width = high - low;
-        const secant = low + (width * lowSlope) / (lowSlope - highSlope);
-        alpha = Math.min(Math.max(secant, low + 0.05 * width), high - 0.05 * width);
+        if (-highSlope > KINK_RATIO * lowSlope) {
+          // φ' drops by far more across the bracket than it fell before it: a kink (a site's cost
+          // stepping past its empty cost, where its inflow turns steeply), where secants creep.
+          alpha = low + 0.5 * width;
+        } else {
+          const secant = low + (width * lowSlope) / (lowSlope - highSlope);
+          alpha = Math.min(Math.max(secant, low + 0.05 * width), high - 0.05 * width);
+        }
       }
     }
     if (!accepted) {

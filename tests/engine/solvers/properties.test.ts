@@ -271,3 +271,25 @@ describe("convergence on generated regions of 500 practices × 40 sites", () => 
     });
   }
 });
+
+describe("regions with more sites than the dense Newton limit (1,500 practices × 160 sites)", () => {
+  // Beyond 120 sites the Newton systems are solved block by block (sites that share no source are
+  // uncoupled) or by conjugate gradients, and each evaluation reads per-source candidate lists;
+  // the answer must still meet Wardrop's conditions (Wardrop 1952) at the default tolerance.
+  const spec = { ...LARGE, name: "1500×160", sources: 1500, sites: 160, widthKm: 320, heightKm: 360, towns: 60 };
+  for (const seed of [3, 7]) {
+    it(`seed ${seed}: choice and optimum converge and meet the first and second principles`, () => {
+      const [problem] = generateRegion({ ...spec, seed });
+      const choice = solveChoice(problem);
+      expect(choice.diagnostics.converged).toBe(true);
+      expect(choice.diagnostics.relativeGap).toBeLessThanOrEqual(1e-10);
+      expectWardrop(problem, choice.allocation.flow, choice.allocation.balked, choice.siteWait, 1e-8);
+      const optimum = solveOptimum(problem);
+      expect(optimum.diagnostics.converged).toBe(true);
+      expect(optimum.diagnostics.relativeGap).toBeLessThanOrEqual(1e-10);
+      const loads = loadsOf(problem, optimum.allocation.flow);
+      const marginal = loads.map((x, j) => problem.sites[j].wait(x) + x * problem.sites[j].waitSlope(x));
+      expectWardrop(problem, optimum.allocation.flow, optimum.allocation.balked, marginal, 1e-8);
+    });
+  }
+});
