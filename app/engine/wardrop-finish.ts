@@ -77,20 +77,25 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
   // η starts from the logit solution: w_j(θ) ≈ L + δ_j + η_j/θ.
   let iterations = 0;
   let message = "";
+  // Groups solved in an earlier round, by structure: most groups come back unchanged after a
+  // round that corrected a few sources, and then start from their solution.
+  const solvedBefore = new Map<number, SolvedGroup>();
   for (let round = 1; round <= maxRounds; round++) {
     const groups = buildGroups(view, tie, sourceOffset, w);
     if (groups === null) continue; // inconsistent ties were dropped; rebuild
     let pruned = false;
     let unbalanced = 0;
-    flow.fill(0);
     if (iterations >= maxIterations) {
       return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message: "the iteration budget ran out" };
     }
     // Groups are independent systems: a round costs as many iterations as its slowest group.
     let roundIterations = 0;
     for (const group of groups) {
-      initialiseGroup(view, group, w, theta, eta);
+      const key = groupKey(group, tie);
+      const known = solvedBefore.get(key);
+      if (!known || !restoreGroup(group, known, eta)) initialiseGroup(view, group, w, theta, eta);
       const solved = solveGroup(view, group, tie, sourceOffset, eta);
+      if (solved.ok) solvedBefore.set(key, saveGroup(group, eta));
       roundIterations = Math.max(roundIterations, solved.iterations);
       // A group that cannot balance has the wrong sources (e.g. more fixed demand than the
       // sites can take): vanishing shares are dropped now; otherwise the check below, run on
@@ -102,7 +107,7 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
     }
     iterations += roundIterations;
     if (pruned) continue;
-    // Assemble the allocation on the solved structure.
+    // Site costs on the solved structure (flows are written only for the answer).
     siteCost.fill(NaN);
     load.fill(0);
     for (const group of groups) {
@@ -110,7 +115,6 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
         siteCost[j] = group.level + group.delta[k];
         load[j] = view.inverses[j].load(siteCost[j]);
       });
-      for (const i of group.sources) writeSourceFlows(view, i, tie[i], group.level + sourceOffset[i], eta, flow, balked);
     }
     for (let j = 0; j < m; j++) {
       if (Number.isNaN(siteCost[j])) {
@@ -118,12 +122,19 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
         load[j] = 0;
       }
     }
+    const allocate = (): void => {
+      flow.fill(0);
+      for (const group of groups) {
+        for (const i of group.sources) writeSourceFlows(view, i, tie[i], group.level + sourceOffset[i], eta, flow, balked);
+      }
+      for (let i = 0; i < n; i++) {
+        const t = tie[i];
+        if (t.allBalk || t.sites.length === 0) balked[i] = Number.isFinite(outsideCost[i]) ? demand[i] : 0;
+      }
+    };
     for (let i = 0; i < n; i++) {
       const t = tie[i];
-      if (t.allBalk || t.sites.length === 0) {
-        balked[i] = Number.isFinite(outsideCost[i]) ? demand[i] : 0;
-        t.sites = [];
-      }
+      if (t.allBalk || t.sites.length === 0) t.sites = [];
     }
     // Wardrop check: no cheaper option left unused, outside option respected.
     let changed = false;
@@ -171,6 +182,7 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
       }
     }
     if (!changed) {
+      allocate();
       if (unbalanced === 0) return { ok: true, flow, balked, siteCost, load, rounds: round, iterations, message: "" };
       message = `${unbalanced} group(s) of sites could not balance their inflow`;
       return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message };
@@ -216,7 +228,8 @@ function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Arra
   const { n, m, pairCost, outsideCost } = view;
   // Nodes: sources 0..n−1, sites n..n+m−1, ground n+m.
   const ground = n + m;
-  const parent = Int32Array.from({ length: n + m + 1 }, (_, k) => k);
+  const parent = new Int32Array(n + m + 1);
+  for (let k = 0; k <= n + m; k++) parent[k] = k;
   const find = (k: number): number => {
     while (parent[k] !== k) {
       parent[k] = parent[parent[k]];
@@ -224,30 +237,58 @@ function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Arra
     }
     return k;
   };
-  interface Edge { source: number; site: number; key: number }
-  const edges: Edge[] = [];
+  // Candidate edges (source, site or −1 for the ground), ordered by key.
+  let edgeCount = 0;
+  for (let i = 0; i < n; i++) if (tie[i].sites.length > 0) edgeCount += tie[i].sites.length + (tie[i].outsideTie ? 1 : 0);
+  const edgeSource = new Int32Array(edgeCount);
+  const edgeSite = new Int32Array(edgeCount);
+  const edgeKey = new Float64Array(edgeCount);
+  let e = 0;
   for (let i = 0; i < n; i++) {
     const t = tie[i];
     if (t.sites.length === 0) continue;
     let cheapest = Infinity;
     for (const j of t.sites) cheapest = Math.min(cheapest, w[j] + pairCost[i * m + j]);
-    for (const j of t.sites) edges.push({ source: i, site: j, key: t.forced.has(j) ? -1 : w[j] + pairCost[i * m + j] - cheapest });
-    if (t.outsideTie) edges.push({ source: i, site: -1, key: t.forcedTie ? -1 : Math.abs(cheapest - outsideCost[i]) });
+    for (const j of t.sites) {
+      edgeSource[e] = i;
+      edgeSite[e] = j;
+      edgeKey[e++] = t.forced.has(j) ? -1 : w[j] + pairCost[i * m + j] - cheapest;
+    }
+    if (t.outsideTie) {
+      edgeSource[e] = i;
+      edgeSite[e] = -1;
+      edgeKey[e++] = t.forcedTie ? -1 : Math.abs(cheapest - outsideCost[i]);
+    }
   }
-  edges.sort((a, b) => a.key - b.key);
-  const treeNeighbours: number[][] = Array.from({ length: n + m + 1 }, () => []);
-  const closing: Edge[] = [];
-  for (const edge of edges) {
-    const a = edge.source;
-    const b = edge.site < 0 ? ground : n + edge.site;
+  const order = Array.from({ length: edgeCount }, (_, k) => k).sort((a, b) => edgeKey[a] - edgeKey[b] || a - b);
+  // The forest's edges as node pairs, then as adjacency lists (compressed rows).
+  const treeA = new Int32Array(n + m);
+  const treeB = new Int32Array(n + m);
+  let treeEdges = 0;
+  const closing: number[] = [];
+  for (const edge of order) {
+    const a = edgeSource[edge];
+    const b = edgeSite[edge] < 0 ? ground : n + edgeSite[edge];
     const ra = find(a);
     const rb = find(b);
     if (ra === rb) closing.push(edge);
     else {
       parent[ra] = rb;
-      treeNeighbours[a].push(b);
-      treeNeighbours[b].push(a);
+      treeA[treeEdges] = a;
+      treeB[treeEdges++] = b;
     }
+  }
+  const neighbourStart = new Int32Array(n + m + 2);
+  for (let k = 0; k < treeEdges; k++) {
+    neighbourStart[treeA[k] + 1]++;
+    neighbourStart[treeB[k] + 1]++;
+  }
+  for (let k = 0; k <= n + m; k++) neighbourStart[k + 1] += neighbourStart[k];
+  const neighbours = new Int32Array(2 * treeEdges);
+  const filled = neighbourStart.slice(0, n + m + 1);
+  for (let k = 0; k < treeEdges; k++) {
+    neighbours[filled[treeA[k]]++] = treeB[k];
+    neighbours[filled[treeB[k]]++] = treeA[k];
   }
   // Potentials along the forest: absolute from the ground (u_i = o_i), relative from a root site.
   const potential = new Float64Array(n + m + 1);
@@ -256,44 +297,101 @@ function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Arra
   // Potentials: absolute (u_i = o_i) in a subtree hanging from the ground, relative to a root site
   // otherwise. Subtrees joined only through the ground are independent groups (their level is fixed).
   seen[ground] = 1;
+  const queue = new Int32Array(n + m + 1);
   const visit = (root: number, grounded: boolean): void => {
-    const order = [root];
+    let tail = 0;
+    queue[tail++] = root;
     seen[root] = 1;
     potential[root] = grounded ? outsideCost[root] : 0;
-    for (let head = 0; head < order.length; head++) {
-      const node = order[head];
-      for (const next of treeNeighbours[node]) {
+    for (let head = 0; head < tail; head++) {
+      const node = queue[head];
+      for (let k = neighbourStart[node]; k < neighbourStart[node + 1]; k++) {
+        const next = neighbours[k];
         if (seen[next]) continue;
         seen[next] = 1;
         if (node < n) potential[next] = potential[node] - pairCost[node * m + (next - n)];
         else potential[next] = potential[node] + pairCost[next * m + (node - n)];
-        order.push(next);
+        queue[tail++] = next;
       }
     }
-    const sites = order.filter((k) => k >= n).map((k) => k - n);
-    const sources = order.filter((k) => k < n);
-    for (const i of sources) sourceOffset[i] = potential[i];
+    const sites: number[] = [];
+    const sources: number[] = [];
+    for (let k = 0; k < tail; k++) {
+      const node = queue[k];
+      if (node >= n) sites.push(node - n);
+      else {
+        sources.push(node);
+        sourceOffset[node] = potential[node];
+      }
+    }
     if (sites.length > 0) groups.push({ sites, sources, delta: Float64Array.from(sites, (j) => potential[n + j]), grounded, level: 0 });
   };
-  for (const source of treeNeighbours[ground]) if (!seen[source]) visit(source, true);
-  for (let j = 0; j < m; j++) if (!seen[n + j] && treeNeighbours[n + j].length > 0) visit(n + j, false);
+
+  for (let k = neighbourStart[ground]; k < neighbourStart[ground + 1]; k++) if (!seen[neighbours[k]]) visit(neighbours[k], true);
+  for (let j = 0; j < m; j++) if (!seen[n + j] && neighbourStart[n + j + 1] > neighbourStart[n + j]) visit(n + j, false);
   // Pairs closing a cycle: keep exact ties, drop the rest.
   let dropped = false;
   for (const edge of closing) {
-    const i = edge.source;
+    const i = edgeSource[edge];
+    const site = edgeSite[edge];
     const t = tie[i];
     const scale = 1e-10 * (1 + Math.abs(potential[i]));
-    if (edge.site < 0) {
+    if (site < 0) {
       if (Math.abs(potential[i] - outsideCost[i]) > scale) {
         t.outsideTie = false;
         dropped = true;
       }
-    } else if (Math.abs(potential[n + edge.site] + pairCost[i * m + edge.site] - potential[i]) > scale) {
-      t.sites = t.sites.filter((j) => j !== edge.site);
+    } else if (Math.abs(potential[n + site] + pairCost[i * m + site] - potential[i]) > scale) {
+      t.sites = t.sites.filter((j) => j !== site);
       dropped = true;
     }
   }
   return dropped ? null : groups;
+}
+
+/**
+ * A hash of a group's structure: its sources with their tied sites and outside ties (its sites
+ * follow from them). Only a warm start hangs on it, so a collision would cost time, not accuracy.
+ */
+function groupKey(group: Group, tie: SourceTie[]): number {
+  let low = group.grounded ? 0x9e3779b9 : 0x85ebca6b;
+  let high = group.sources.length;
+  const mix = (value: number): void => {
+    low = Math.imul(low ^ value, 0x01000193);
+    high = Math.imul(high + value, 0x5bd1e995) ^ (high >>> 15);
+  };
+  // In increasing order, so that the key does not depend on the order the forest visited them.
+  const sources = [...group.sources].sort((a, b) => a - b);
+  for (const i of sources) {
+    mix(i + 1);
+    for (const j of tie[i].sites) mix(-(j + 2));
+    if (tie[i].outsideTie) mix(-1);
+  }
+  return (high >>> 0) * 4294967296 + (low >>> 0);
+}
+
+interface SolvedGroup {
+  /** Site cost and η by site. */
+  cost: Map<number, number>;
+  eta: Map<number, number>;
+}
+
+function saveGroup(group: Group, eta: Float64Array): SolvedGroup {
+  const cost = new Map<number, number>();
+  const etaBySite = new Map<number, number>();
+  group.sites.forEach((j, k) => {
+    cost.set(j, group.level + group.delta[k]);
+    etaBySite.set(j, eta[j]);
+  });
+  return { cost, eta: etaBySite };
+}
+
+/** Starts a group from its earlier solution (its level read through this round's offsets); false if the sites differ. */
+function restoreGroup(group: Group, known: SolvedGroup, eta: Float64Array): boolean {
+  if (known.eta.size !== group.sites.length || !group.sites.every((j) => known.eta.has(j))) return false;
+  if (!group.grounded) group.level = (known.cost.get(group.sites[0]) as number) - group.delta[0];
+  for (const j of group.sites) eta[j] = known.eta.get(j) as number;
+  return true;
 }
 
 function initialiseGroup(view: CostView, group: Group, w: Float64Array, theta: number, eta: Float64Array): void {
