@@ -31,7 +31,7 @@
  */
 
 import { balkingCost, balkingShare, reservationRange } from "./outside-option";
-import type { Allocation, LineProblem, SolveDiagnostics } from "./problem";
+import type { Allocation, LineProblem, SiteWaitModel, SolveDiagnostics } from "./problem";
 
 export type FixedRuleKey = "nearest" | "capacityShare";
 
@@ -103,15 +103,13 @@ export function nearestShares(problem: LineProblem): Float64Array {
 export function capacityShares(problem: LineProblem): Float64Array {
   const { n, m, travelCost, sites } = problem;
   const shares = new Float64Array(n * m);
+  const capacity = Float64Array.from(sites, (site) => Math.max(0, site.capacity));
   for (let i = 0; i < n; i++) {
+    const row = i * m;
     let total = 0;
-    for (let j = 0; j < m; j++) {
-      if (Number.isFinite(travelCost[i * m + j])) total += Math.max(0, sites[j].capacity);
-    }
+    for (let j = 0; j < m; j++) if (travelCost[row + j] !== Infinity && !Number.isNaN(travelCost[row + j])) total += capacity[j];
     if (!(total > 0)) continue;
-    for (let j = 0; j < m; j++) {
-      if (Number.isFinite(travelCost[i * m + j])) shares[i * m + j] = Math.max(0, sites[j].capacity) / total;
-    }
+    for (let j = 0; j < m; j++) if (travelCost[row + j] !== Infinity && !Number.isNaN(travelCost[row + j])) shares[row + j] = capacity[j] / total;
   }
   return shares;
 }
@@ -127,20 +125,12 @@ export function solveCapacityShare(problem: LineProblem, options: FixedRuleOptio
 }
 
 /**
- * Share of a stream's patients who stay when their option costs `cost`: 1 − F(cost), F from
- * `outside-option.ts`. `tiesStay` decides the patients exactly indifferent at a sharp threshold
- * (s = 0, cost = o): they stay for the upper end of the bracket, leave for the lower.
- */
-function stayingShare(cost: number, outsideCost: number, spread: number, tiesStay: boolean): number {
-  if (outsideCost === Infinity) return 1;
-  if (tiesStay && spread === 0 && cost === outsideCost) return 1;
-  return 1 - balkingShare(cost, outsideCost, spread);
-}
-
-/**
- * `stayingShare` for the hot loops, with the stream's reservation range shifted by its travel:
- * patients stay while the site wait is below low = o(1−s) − t, none stay from high = o(1+s) − t,
- * and a linear share in between (low = high = Infinity: no outside option).
+ * Share of a stream's patients who stay (1 − F of `outside-option.ts`), with the stream's
+ * reservation range shifted by its travel: patients stay while the site wait is below
+ * low = o(1−s) − t, none stay from high = o(1+s) − t, and a linear share in between
+ * (low = high = Infinity: no outside option). `tiesStay` decides the patients exactly
+ * indifferent at a sharp threshold (s = 0, wait = low): they stay for the upper end of a
+ * bracket, leave for the lower.
  */
 function streamStaying(low: number, high: number, wait: number, tiesStay: boolean): number {
   if (low === Infinity || wait < low || (tiesStay && wait === low)) return 1;
@@ -156,8 +146,104 @@ function balkersCost(balked: number, demand: number, outsideCost: number, spread
 }
 
 /**
+ * What one pass over a site's streams at wait w tells: the patients served S(w) (ties at a sharp
+ * threshold stay), the exact slope −B of S there, and the interval (below, above] of waits on
+ * which S is exactly S(w) − B·(w' − w) — no stream's reservation range begins or ends inside it.
+ */
+interface StreamPass {
+  wait: number;
+  served: number;
+  slope: number;
+  below: number;
+  above: number;
+}
+
+/** Streams of one site in CSR order with their demand and the waits where their reservation range begins and ends. */
+interface SiteStreams {
+  demand: Float64Array;
+  low: Float64Array;
+  high: Float64Array;
+}
+
+/** One pass over streams first..last−1 at wait w (the patients with no outside option are not among them). */
+function passStreams(streams: SiteStreams, first: number, last: number, wait: number): StreamPass {
+  const { demand, low, high } = streams;
+  let served = 0;
+  let slope = 0;
+  let below = -Infinity;
+  let above = Infinity;
+  for (let k = first; k < last; k++) {
+    const lo = low[k];
+    const hi = high[k];
+    if (wait <= lo) {
+      // Everyone stays (at wait = lo too: the share is 1 there, and ties stay at a sharp threshold).
+      served += demand[k];
+      if (lo < above) above = lo;
+    } else if (wait < hi) {
+      const rate = demand[k] / (hi - lo);
+      served += rate * (hi - wait);
+      slope += rate;
+      if (lo > below) below = lo;
+      if (hi < above) above = hi;
+    } else if (hi > below) below = hi;
+  }
+  return { wait, served, slope, below, above };
+}
+
+/**
+ * Root of the local model x = S(w) − B·(W(x) − w) of one pass (S including the captive patients)
+ * inside [low, high], or NaN when the model has none there. The model is a scalar equation in x
+ * with W increasing, solved by Newton steps safeguarded by bisection: no pass over the streams.
+ */
+function modelRoot(site: SiteWaitModel, pass: StreamPass, captive: number, low: number, high: number): number {
+  const served = captive + pass.served;
+  const q = (x: number) => {
+    const wait = x >= site.capacity ? Infinity : site.wait(x);
+    return pass.slope > 0 ? x - served + pass.slope * (wait - pass.wait) : x - served;
+  };
+  if (pass.slope === 0) return served >= low && served <= high ? served : NaN;
+  let qLow = q(low);
+  const qHigh = q(high);
+  if (qLow > 0 || qHigh < 0) return NaN;
+  if (qLow === 0) return low;
+  let a = low;
+  let b = high;
+  let x = served >= low && served < high ? served : 0.5 * (low + high);
+  for (let step = 0; step < 100 && b - a > 2 * Number.EPSILON * Math.max(1, b); step++) {
+    const value = q(x);
+    if (value === 0) return x;
+    if (value > 0) b = x;
+    else {
+      a = x;
+      qLow = value;
+    }
+    const slope = 1 + pass.slope * (x >= site.capacity ? Infinity : site.waitSlope(x));
+    let next = x - value / slope;
+    if (!(next > a && next < b)) next = 0.5 * (a + b);
+    if (next === x) break;
+    x = next;
+  }
+  return x;
+}
+
+/**
  * Solves a fixed assignment with balking: `shares` (n*m) gives the share of each source's
  * demand sent to each site. Exposed so that other fixed rules (or what-ifs) can reuse it.
+ *
+ * Per site, the served demand S(w) is piecewise linear in the wait (with downward jumps at sharp
+ * thresholds), so one pass over the site's streams gives S, its exact slope and the interval on
+ * which that line is exact. The root search in the inflow x keeps the certified bracket
+ * [0, capacity] and tries, after every pass, the root of each bracket end's exact local model: if
+ * it falls where its model is exact, it is the root. Otherwise the latest model's root is the
+ * next point (a Newton step with the exact slope), with a bisection whenever it leaves the bracket
+ * or the bracket fails to halve in two steps. When the bracket's two models meet at one sharp
+ * threshold and neither has its root on its side, the root is the threshold itself (the
+ * indifferent patients split). A few passes per site, whatever the number of streams.
+ *
+ * Streams that cannot stay at any reachable wait (their range ends below the empty site's wait)
+ * and patients without an outside option (always staying) are settled outside the passes; the
+ * flows are written in one pass over the pairs in source order, which keeps memory access
+ * sequential on a national instance (millions of pairs).
  */
 export function solveFixedShares(
   problem: LineProblem,
@@ -177,104 +263,136 @@ export function solveFixedShares(
   let converged = true;
   let steadyState = true;
 
-  // Each site's streams, gathered once (CSR layout): the sources it receives, their demand
-  // share, travel cost and outside option. Keeps every root-finding step O(streams of the site).
-  const start = new Int32Array(m + 1);
-  for (let i = 0; i < n; i++) for (let j = 0; j < m; j++) if (demand[i] * shares[i * m + j] > 0) start[j + 1]++;
-  for (let j = 0; j < m; j++) start[j + 1] += start[j];
-  const streamSource = new Int32Array(start[m]);
-  const streamDemand = new Float64Array(start[m]);
-  const streamTravel = new Float64Array(start[m]);
-  // Waits at which the stream's reservation range begins and ends: o(1 ∓ s) − travel.
-  const streamLow = new Float64Array(start[m]);
-  const streamHigh = new Float64Array(start[m]);
-  const fill = start.slice(0, m);
+  // Each source's reservation range, and the wait of each empty site (no wait is ever lower).
+  const rangeLow = new Float64Array(n);
+  const rangeHigh = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     const range = reservationRange(outsideCost[i], outsideSpread[i]);
+    rangeLow[i] = range.low;
+    rangeHigh[i] = range.high;
+  }
+  const capacity = Float64Array.from(sites, (site) => site.capacity);
+  const emptyWait = Float64Array.from(sites, (site) => site.wait(0));
+
+  // Pass 1 over the pairs: per site, the demand with no outside option (captive), whether any
+  // stream reaches it, and how many streams may stay at some wait (the ones the search needs).
+  const captive = new Float64Array(m);
+  const reached = new Uint8Array(m);
+  const start = new Int32Array(m + 1);
+  for (let i = 0; i < n; i++) {
+    const row = i * m;
+    const free = outsideCost[i] !== Infinity;
     for (let j = 0; j < m; j++) {
-      const stream = demand[i] * shares[i * m + j];
+      const stream = demand[i] * shares[row + j];
       if (!(stream > 0)) continue;
-      const k = fill[j]++;
-      streamSource[k] = i;
-      streamDemand[k] = stream;
-      streamTravel[k] = travelCost[i * m + j];
-      streamLow[k] = range.low - streamTravel[k];
-      streamHigh[k] = range.high - streamTravel[k];
+      reached[j] = 1;
+      if (!free) captive[j] += stream;
+      else if (rangeHigh[i] - travelCost[row + j] >= emptyWait[j]) start[j + 1]++;
     }
   }
-  const served = (first: number, last: number, wait: number, tiesStay: boolean): number => {
-    let total = 0;
-    for (let k = first; k < last; k++) total += streamDemand[k] * streamStaying(streamLow[k], streamHigh[k], wait, tiesStay);
-    return total;
-  };
+  for (let j = 0; j < m; j++) start[j + 1] += start[j];
+  // Pass 2: those streams gathered per site (CSR layout), so every search pass is contiguous.
+  const streams: SiteStreams = { demand: new Float64Array(start[m]), low: new Float64Array(start[m]), high: new Float64Array(start[m]) };
+  const fill = start.slice(0, m);
+  for (let i = 0; i < n; i++) {
+    if (outsideCost[i] === Infinity) continue;
+    const row = i * m;
+    for (let j = 0; j < m; j++) {
+      const stream = demand[i] * shares[row + j];
+      if (!(stream > 0)) continue;
+      const high = rangeHigh[i] - travelCost[row + j];
+      if (!(high >= emptyWait[j])) continue;
+      const k = fill[j]++;
+      streams.demand[k] = stream;
+      streams.low[k] = rangeLow[i] - travelCost[row + j];
+      streams.high[k] = high;
+    }
+  }
 
+  // Per site, the waits at the ends of the final bracket and the share of the indifferent
+  // patients (at a sharp threshold inside it) who stay; the flows are written from these.
+  const waitLow = new Float64Array(m);
+  const waitHigh = new Float64Array(m);
+  const weight = new Float64Array(m);
+  const overloaded = new Uint8Array(m);
   for (let j = 0; j < m; j++) {
     const site = sites[j];
-    const capacity = site.capacity;
+    const cap = capacity[j];
     const first = start[j];
     const last = start[j + 1];
-    let captive = 0; // demand with no outside option: it stays whatever the wait
-    for (let k = first; k < last; k++) if (outsideCost[streamSource[k]] === Infinity) captive += streamDemand[k];
-    if (captive >= capacity && last > first) {
-      overloads.push({ siteId: siteIds[j], demand: captive, capacity, shortfall: captive - capacity });
+    if (captive[j] >= cap && reached[j]) {
+      overloads.push({ siteId: siteIds[j], demand: captive[j], capacity: cap, shortfall: captive[j] - cap });
       warnings.push(
-        `No steady state under ${rule} at site "${siteIds[j]}": ${captive.toFixed(2)} referrals/week with no outside ` +
-          `option are sent to a routine capacity of ${capacity.toFixed(2)}/week (short by ` +
-          `${(captive - capacity).toFixed(2)} referrals/week).`,
+        `No steady state under ${rule} at site "${siteIds[j]}": ${captive[j].toFixed(2)} referrals/week with no outside ` +
+          `option are sent to a routine capacity of ${cap.toFixed(2)}/week (short by ` +
+          `${(captive[j] - cap).toFixed(2)} referrals/week).`,
       );
       converged = false;
       steadyState = false;
+      overloaded[j] = 1;
       siteWait[j] = Infinity;
-      for (let k = first; k < last; k++) {
-        const i = streamSource[k];
-        // Patients with an outside option all leave an infinitely long queue.
-        if (outsideCost[i] === Infinity) flow[i * m + j] = streamDemand[k];
-        else balked[i] += streamDemand[k];
-      }
-      siteInflow[j] = captive;
       continue;
     }
 
-    // Root of g(x) = x − served(W(x)), increasing in x. Invariant: g(low) ≤ 0 < g(high).
-    // Illinois steps (regula falsi that halves a stale end's value; Dowell & Jarratt 1971,
-    // BIT 11:168–174) converge superlinearly where g is smooth; a bisection step whenever the
-    // bracket failed to halve keeps the worst case at bisection's certified rate, which is what
-    // a sharp threshold (a jump in g) needs.
-    const excess = (x: number) => x - served(first, last, x >= capacity ? Infinity : site.wait(x), true);
+    // Root of g(x) = x − captive − S(W(x)), increasing in x. Invariant: g(low) ≤ 0 < g(high).
+    const waitAt = (x: number) => (x >= cap ? Infinity : site.wait(x));
     let low = 0;
-    let high = capacity;
-    let gLow = excess(low);
-    let gHigh = capacity - captive;
+    let high = cap;
+    let lowPass = passStreams(streams, first, last, waitAt(0));
+    let highPass: StreamPass | null = null;
+    let latest = lowPass;
     let root = NaN;
     let steps = 0;
-    let side = 0;
     let widthBefore = high - low;
-    if (gLow >= 0) root = 0;
-    while (Number.isNaN(root) && high - low > tolerance * capacity && steps < maxIterations) {
-      let middle = steps % 2 === 1 && high - low > 0.5 * widthBefore ? NaN : (low * gHigh - high * gLow) / (gHigh - gLow);
+    if (low - captive[j] - lowPass.served >= 0) root = 0;
+    // A model's root is the answer when it lies where that model is exact.
+    const exactRoot = (pass: StreamPass | null): number => {
+      if (!pass) return NaN;
+      const x = modelRoot(site, pass, captive[j], low, high);
+      if (Number.isNaN(x)) return NaN;
+      const wait = waitAt(x);
+      return wait > pass.below && wait <= pass.above ? x : NaN;
+    };
+    while (Number.isNaN(root) && high - low > tolerance * cap && steps < maxIterations) {
+      root = exactRoot(lowPass);
+      if (!Number.isNaN(root)) break;
+      root = exactRoot(highPass);
+      if (!Number.isNaN(root)) break;
+      if (highPass && lowPass.above === highPass.below) {
+        // Both sides are exact up to one threshold and neither has its root on its side: the
+        // root is where the wait reaches that threshold. Narrow [low, high] onto it (W only).
+        const threshold = lowPass.above;
+        for (let halvings = 0; halvings < 200; halvings++) {
+          const middle = 0.5 * (low + high);
+          if (middle <= low || middle >= high) break;
+          if (waitAt(middle) <= threshold) low = middle;
+          else high = middle;
+        }
+        break;
+      }
+      const newton = latest === lowPass || latest === highPass ? modelRoot(site, latest, captive[j], low, high) : NaN;
+      let middle = steps % 2 === 1 && high - low > 0.5 * widthBefore ? NaN : newton;
       if (steps % 2 === 1) widthBefore = high - low;
       if (!(middle > low && middle < high)) middle = 0.5 * (low + high);
       if (middle <= low || middle >= high) break;
-      const value = excess(middle);
+      const pass = passStreams(streams, first, last, waitAt(middle));
+      const value = middle - captive[j] - pass.served;
       steps++;
-      if (Math.abs(value) <= 1e-14 * capacity) root = middle;
+      latest = pass;
+      if (Math.abs(value) <= 1e-14 * cap) root = middle;
       else if (value > 0) {
         high = middle;
-        gHigh = value;
-        if (side === 1) gLow *= 0.5;
-        side = 1;
+        highPass = pass;
       } else {
         low = middle;
-        gLow = value;
-        if (side === -1) gHigh *= 0.5;
-        side = -1;
+        lowPass = pass;
       }
     }
     iterations = Math.max(iterations, steps);
     if (!Number.isNaN(root)) {
       low = root;
       high = root;
-    } else if (high - low > tolerance * capacity * 2 && high - low > 4 * Number.EPSILON * capacity) {
+    } else if (high - low > tolerance * cap * 2 && high - low > 4 * Number.EPSILON * cap) {
       converged = false;
       warnings.push(`${rule}: the inflow at site "${siteIds[j]}" was not pinned down in ${maxIterations} steps.`);
     }
@@ -282,33 +400,45 @@ export function solveFixedShares(
     // Patients served at the bracket's ends; the root lies between. A sharp threshold crossed
     // inside the bracket is the indifferent group: only part of it stays, so interpolate
     // between the two ends to make the inflow consistent with the bracket.
-    const waitLow = site.wait(low);
-    const waitHigh = high >= capacity ? Infinity : site.wait(high);
-    const servedLow = served(first, last, waitLow, true);
-    const servedHigh = served(first, last, waitHigh, false);
+    waitLow[j] = site.wait(low);
+    waitHigh[j] = waitAt(high);
+    const ends = servedAtEnds(streams, first, last, waitLow[j], waitHigh[j]);
+    const servedLow = captive[j] + ends.low;
+    const servedHigh = captive[j] + ends.high;
     const target = 0.5 * (low + high);
-    const weight = servedLow > servedHigh ? Math.min(1, Math.max(0, (target - servedHigh) / (servedLow - servedHigh))) : 0;
-    let inflow = 0;
-    for (let k = first; k < last; k++) {
-      const i = streamSource[k];
-      const stayHigh = streamStaying(streamLow[k], streamHigh[k], waitHigh, false);
-      const stayLow = streamStaying(streamLow[k], streamHigh[k], waitLow, true);
-      const staying = streamDemand[k] * (stayHigh + weight * (stayLow - stayHigh));
-      flow[i * m + j] = staying;
-      balked[i] += streamDemand[k] - staying;
-      inflow += staying;
-    }
-    siteInflow[j] = inflow;
-    siteWait[j] = inflow >= capacity ? Infinity : site.wait(inflow);
+    weight[j] = servedLow > servedHigh ? Math.min(1, Math.max(0, (target - servedHigh) / (servedLow - servedHigh))) : 0;
   }
 
-  // Sources the rule sends nowhere (no allowed site): they balk, or there is no steady state.
+  // The flows, pair by pair in source order, from each site's final waits; sources the rule sends
+  // nowhere (no allowed site) balk, or, without an outside option, have no steady state.
   for (let i = 0; i < n; i++) {
+    const row = i * m;
+    const low = rangeLow[i];
+    const high = rangeHigh[i];
+    const free = outsideCost[i] !== Infinity;
     let assigned = 0;
-    for (let j = 0; j < m; j++) assigned += shares[i * m + j];
+    let leaving = 0;
+    for (let j = 0; j < m; j++) {
+      assigned += shares[row + j];
+      const stream = demand[i] * shares[row + j];
+      if (!(stream > 0)) continue;
+      let staying: number;
+      if (!free) staying = stream;
+      else if (overloaded[j]) staying = 0; // patients with an outside option all leave an infinitely long queue
+      else {
+        const travel = travelCost[row + j];
+        const stayHigh = streamStaying(low - travel, high - travel, waitHigh[j], false);
+        const stayLow = streamStaying(low - travel, high - travel, waitLow[j], true);
+        staying = stream * (stayHigh + weight[j] * (stayLow - stayHigh));
+      }
+      flow[row + j] = staying;
+      leaving += stream - staying;
+      siteInflow[j] += staying;
+    }
+    balked[i] = leaving;
     const unassigned = demand[i] * Math.max(0, 1 - assigned);
     if (unassigned <= 1e-12 * Math.max(1, demand[i])) continue;
-    if (outsideCost[i] === Infinity) {
+    if (!free) {
       converged = false;
       steadyState = false;
       warnings.push(
@@ -318,6 +448,7 @@ export function solveFixedShares(
     }
     balked[i] += unassigned;
   }
+  for (let j = 0; j < m; j++) if (!overloaded[j]) siteWait[j] = siteInflow[j] >= capacity[j] ? Infinity : sites[j].wait(siteInflow[j]);
 
   const { totalCost, relativeGap } = fixedRuleCost(problem, shares, flow, siteWait);
   return {
@@ -330,6 +461,17 @@ export function solveFixedShares(
     overloads,
     diagnostics: { converged, iterations, relativeGap: steadyState ? relativeGap : Infinity, warnings },
   };
+}
+
+/** Patients of streams first..last−1 who stay at the bracket's ends: ties stay at the lower, leave at the upper. */
+function servedAtEnds(streams: SiteStreams, first: number, last: number, waitLow: number, waitHigh: number): { low: number; high: number } {
+  let low = 0;
+  let high = 0;
+  for (let k = first; k < last; k++) {
+    low += streams.demand[k] * streamStaying(streams.low[k], streams.high[k], waitLow, true);
+    high += streams.demand[k] * streamStaying(streams.low[k], streams.high[k], waitHigh, false);
+  }
+  return { low, high };
 }
 
 /**
@@ -355,20 +497,32 @@ export function fixedRuleCost(
   for (let i = 0; i < n; i++) {
     const o = outsideCost[i];
     const s = outsideSpread[i];
+    const row = i * m;
     let assigned = 0;
-    for (let j = 0; j < m; j++) {
-      const pair = i * m + j;
-      const stream = demand[i] * shares[pair];
-      assigned += shares[pair];
-      if (stream <= 0) continue;
-      const cost = siteWait[j] + travelCost[pair];
-      const staying = flow[pair];
-      const leaving = Math.max(0, stream - staying);
-      actual += (staying > 0 ? staying * cost : 0) + balkersCost(leaving, stream, o, s);
-      if (o === Infinity) best += stream * cost;
-      else {
-        const optimalStaying = stream * stayingShare(cost, o, s, true);
-        best += (optimalStaying > 0 ? optimalStaying * cost : 0) + balkersCost(stream - optimalStaying, stream, o, s);
+    if (o === Infinity) {
+      // No outside option: every patient stays, so the actual and the best cost are the same.
+      for (let j = 0; j < m; j++) {
+        assigned += shares[row + j];
+        const stream = demand[i] * shares[row + j];
+        if (stream <= 0) continue;
+        const cost = siteWait[j] + travelCost[row + j];
+        const staying = flow[row + j];
+        actual += staying > 0 ? staying * cost : 0;
+        best += stream * cost;
+      }
+    } else {
+      // stayingShare and balkersCost written out (a national instance has millions of streams).
+      const { low, high } = reservationRange(o, s);
+      for (let j = 0; j < m; j++) {
+        assigned += shares[row + j];
+        const stream = demand[i] * shares[row + j];
+        if (stream <= 0) continue;
+        const cost = siteWait[j] + travelCost[row + j];
+        const staying = flow[row + j];
+        const leaving = Math.max(0, stream - staying);
+        actual += (staying > 0 ? staying * cost : 0) + streamBalkersCost(leaving, stream, low, high, o, s);
+        const optimalStaying = stream * (cost <= low ? 1 : cost >= high ? 0 : 1 - (cost - low) / (high - low));
+        best += (optimalStaying > 0 ? optimalStaying * cost : 0) + streamBalkersCost(stream - optimalStaying, stream, low, high, o, s);
       }
     }
     const unassigned = demand[i] * Math.max(0, 1 - assigned);
@@ -379,4 +533,11 @@ export function fixedRuleCost(
     }
   }
   return { totalCost: actual, relativeGap: actual > 0 ? Math.max(0, (actual - best) / actual) : 0 };
+}
+
+/** `balkersCost` with the reservation range [low, high] of (o, s) already at hand. */
+function streamBalkersCost(balked: number, demand: number, low: number, high: number, outsideCost: number, spread: number): number {
+  if (!(balked > 0)) return 0;
+  if (balked >= demand) return (balked * (low + (low + Math.min(balked / demand, 1) * (high - low)))) / 2;
+  return outsideCost * (1 - spread) * balked + (outsideCost * spread * balked * balked) / demand;
 }
