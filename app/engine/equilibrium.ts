@@ -175,7 +175,7 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   let budget = settings.maxIterations;
   // The first stage's solution tells the cost scale that θ_finish is measured against.
   view.cutoff = FIRST_STAGE_CUTOFF;
-  const first = logitNewton(view, startTheta, w, workspace, 1e-3 * view.totalDemand, budget);
+  const first = logitNewton(view, startTheta, w, workspace, 1e-3 * view.totalDemand, budget, true);
   view.cutoff = CONTINUATION_CUTOFF;
   iterations += first.iterations;
   budget -= first.iterations;

@@ -15,13 +15,15 @@
  *
  *   H = Σ_i [ θ q_i (diag p_i − p_i p_iᵀ) + κ_i p_i p_iᵀ ] + diag(x_j'(w_j)),
  *
- * with κ_i = −dq_i/dV_i ≥ 0 (V_i the inclusive cost). Newton solves H Δ = R (dense Cholesky on m
- * unknowns — a few hundred at most) with a backtracking line search on ‖R‖₂; the Newton direction
- * always decreases ‖R‖₂ because it is exact for the symmetric Jacobian.
+ * with κ_i = −dq_i/dV_i ≥ 0 (V_i the inclusive cost). Newton solves H Δ = R: dense Cholesky up to
+ * DENSE_LIMIT sites; beyond it block by block when sites fall apart into groups that share no
+ * source, else conjugate gradients on the implicit H. A line search on the slope of the dual along
+ * the step (see `logitNewton`) picks the step length.
  *
  * Pruning: an option more than 40/θ weeks dearer than a source's cheapest carries a share below
- * e^{-40} ≈ 4e-18 and is skipped (25/θ during continuation, see `CostView.cutoff`), so each source touches only the few sites that can be near
- * its cheapest; H is assembled from those alone (work Σ_i K_i², K_i the kept options).
+ * e^{-40} ≈ 4e-18 and is skipped (less during continuation, see `CostView.cutoff`), so each source
+ * touches only the few sites that can be near its cheapest (read from candidate lists, see
+ * `CandidateSites`); H is assembled from those alone (work Σ_i K_i², K_i the kept options).
  */
 import { logitBalkingShare } from "./outside-option";
 import { choleskySolveInPlace } from "./dense-linear";
@@ -527,7 +529,8 @@ const KINK_RATIO = 10;
 
 /**
  * Newton iterations at a fixed θ from the costs in `w` (updated in place) until Σ_j |R_j| ≤
- * `tolerance`. Stops early, unconverged, when the line search can no longer reduce ‖R‖.
+ * `tolerance`. Stops early, unconverged, when the line search finds no step. `emptyChords`: see
+ * the chord rule inside (for a start from empty sites).
  */
 export function logitNewton(
   view: CostView,
@@ -536,6 +539,7 @@ export function logitNewton(
   ws: LogitWorkspace,
   tolerance: number,
   maxIterations: number,
+  emptyChords = false,
 ): NewtonOutcome {
   const { m } = view;
   evaluateLogit(view, theta, w, ws);
@@ -543,6 +547,29 @@ export function logitNewton(
   while (absoluteSum(ws.residual) > tolerance && iterations < maxIterations) {
     iterations++;
     newtonDirection(view, theta, ws);
+    if (emptyChords) {
+      // A site whose step would take its cost below its empty cost meets the steep extension
+      // there (a cliff in the dual, where line searches take tiny steps). Such a site's slope in
+      // H becomes the chord to the empty point, x_j/(w_j − e_j) — the linear model then empties
+      // it at its empty cost, not beyond — and the direction is solved again. Used in the first
+      // stage, where costs rise from empty sites (national instance: 17 Newton steps and 25
+      // evaluations instead of 20 and 46); later stages start near their solution, where the
+      // chords only slowed Newton's final convergence.
+      for (let round = 0; round < 2; round++) {
+        let crossing = 0;
+        for (let j = 0; j < m; j++) {
+          const inverse = view.inverses[j];
+          const above = w[j] - inverse.emptyCost;
+          if (inverse.bounds.lower > 0 || !(above > 0) || w[j] + ws.step[j] >= inverse.emptyCost) continue;
+          const chord = ws.load[j] / above;
+          if (!(chord > ws.loadSlope[j] * (1 + 1e-9))) continue;
+          ws.loadSlope[j] = chord;
+          crossing++;
+        }
+        if (crossing === 0) break;
+        newtonDirection(view, theta, ws);
+      }
+    }
     // A full Newton step can jump far when a site is nearly empty or nearly full; no site cost
     // needs to move by more than a few times the width of the kept options plus its own size.
     let largest = 0;
@@ -555,6 +582,9 @@ export function logitNewton(
     // and the bracket shrinks by secants on φ' (regula falsi, kept 5% inside the bracket): accepting
     // the first step that merely did not overshoot took hundreds of 5% steps at moderate θ, where
     // the full step overshoots by far. Inexact directions need no accurate solve to be accepted.
+    // Across a kink (φ' far steeper at the bracket's far end than it fell before it) secants
+    // creep, so the bracket is halved instead, and a climbing step is taken once the bracket is
+    // narrow: a step into a site's empty-cost cliff once took 40 trial evaluations.
     let slope0 = 0;
     for (let j = 0; j < m; j++) if (ws.step[j] !== 0) slope0 += ws.residual[j] * ws.step[j];
     let accepted = false;
