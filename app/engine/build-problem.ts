@@ -167,33 +167,63 @@ function urgentShareFor(urgentShare: number | Record<string, number> | undefined
   return typeof urgentShare === "number" ? urgentShare : (urgentShare[lineId] ?? 0);
 }
 
+/**
+ * Road km of each line's source–site pairs (`pairKm`), by line id. A line's sources and sites are
+ * the same in every period, so one map serves the stationary problem and all periods — and, in
+ * the command line, both threads (the arrays may live in shared memory). Solvers only read them.
+ */
+export type LineDistances = Map<string, Float64Array>;
+
 /** Builds every service line's problem, in the scenario's order, for the whole year or one period. */
-export function buildLineProblems(scenario: Scenario, period?: ScenarioPeriod): LineBuild[] {
-  return scenario.serviceLines.map((line) => buildLineProblem(scenario, line.id, period));
+export function buildLineProblems(scenario: Scenario, period?: ScenarioPeriod, distances?: LineDistances): LineBuild[] {
+  return scenario.serviceLines.map((line) => buildLineProblem(scenario, line.id, period, distances));
 }
 
-export function buildLineProblem(scenario: Scenario, lineId: string, period?: ScenarioPeriod): LineBuild {
+/** Road km of every line's pairs; `allocate` chooses the arrays' memory (e.g. shared between threads). */
+export function lineDistances(scenario: Scenario, allocate: (length: number) => Float64Array = (length) => new Float64Array(length)): LineDistances {
+  const distances: LineDistances = new Map();
+  for (const line of scenario.serviceLines) {
+    const { sources, sites } = lineMembers(scenario, line.id);
+    const km = allocate(sources.length * sites.length);
+    km.set(pairKm(sources.map((index) => scenario.sources[index]), sites.map((index) => scenario.providers[index]), scenario.circuity, scenario.travelKm ?? undefined));
+    distances.set(line.id, km);
+  }
+  return distances;
+}
+
+/** The sources with demand for a line and the providers offering it (indices in the scenario). */
+function lineMembers(scenario: Scenario, lineId: string): { sources: number[]; sites: number[] } {
+  const sites: number[] = [];
+  scenario.providers.forEach((provider, index) => {
+    if (provider.lines[lineId]) sites.push(index);
+  });
+  const sources: number[] = [];
+  scenario.sources.forEach((source, index) => {
+    if ((source.demand[lineId] ?? 0) > 0) sources.push(index);
+  });
+  return { sources, sites };
+}
+
+/** One line's problem; `distances` supplies (or, when it lacks the line, keeps) the line's road km. */
+export function buildLineProblem(scenario: Scenario, lineId: string, period?: ScenarioPeriod, distances?: LineDistances): LineBuild {
   const line = scenario.serviceLines.find((candidate) => candidate.id === lineId);
   if (!line) throw new RangeError(`unknown service line "${lineId}"`);
   const factors = periodFactors(period, lineId);
 
-  const providerIndex: number[] = [];
-  scenario.providers.forEach((provider, index) => {
-    if (provider.lines[lineId]) providerIndex.push(index);
-  });
-  const sourceIndex: number[] = [];
-  scenario.sources.forEach((source, index) => {
-    if ((source.demand[lineId] ?? 0) > 0) sourceIndex.push(index);
-  });
+  const { sources: sourceIndex, sites: providerIndex } = lineMembers(scenario, lineId);
   const n = sourceIndex.length;
   const m = providerIndex.length;
 
-  const km = pairKm(
-    sourceIndex.map((index) => scenario.sources[index]),
-    providerIndex.map((index) => scenario.providers[index]),
-    scenario.circuity,
-    scenario.travelKm ?? undefined,
-  );
+  let km = distances?.get(lineId);
+  if (!km || km.length !== n * m) {
+    km = pairKm(
+      sourceIndex.map((index) => scenario.sources[index]),
+      providerIndex.map((index) => scenario.providers[index]),
+      scenario.circuity,
+      scenario.travelKm ?? undefined,
+    );
+    distances?.set(lineId, km);
+  }
   const travelCost = new Float64Array(n * m);
   for (let pair = 0; pair < n * m; pair++) travelCost[pair] = km[pair] / scenario.kmPerWeek;
 

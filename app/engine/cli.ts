@@ -12,8 +12,10 @@
  *   1  an unexpected failure inside the engine (a defect: please report it).
  */
 import { readFileSync } from "node:fs";
+import { lineDistances } from "./build-problem";
 import { NoSteadyStateError, type RuleKey, ScenarioInputError } from "./problem";
-import { solveRulesOnThread } from "./rule-thread";
+import { type RenderedRuleReport, renderRuleReports, resultJsonChunks } from "./result-json";
+import { sharedFloat64Array, startRuleThread } from "./rule-thread";
 import { parseScenario } from "./scenario";
 import { mergeScenarioResults, rulesToRun, type ScenarioResult, solveScenario } from "./solve-scenario";
 
@@ -30,7 +32,10 @@ function fail(code: number, message: string): number {
  * variable EQUILIBRA_SOLVE_PARALLEL_PAIRS changes it (the tests set 1 to use the thread on small files).
  */
 const PARALLEL_PAIRS = Number(process.env.EQUILIBRA_SOLVE_PARALLEL_PAIRS ?? 200_000);
-/** The rules the second thread takes: about half the work (choice ≈ optimum; nearest is cheap). */
+/**
+ * The rules the second thread takes: about half the work (choice ≈ optimum; nearest is cheap;
+ * capacityShare's report, with every practice–site flow, is the largest text to write).
+ */
 const SECOND_THREAD_RULES: readonly RuleKey[] = ["choice", "nearest", "plan"];
 
 async function main(args: readonly string[]): Promise<number> {
@@ -55,22 +60,29 @@ async function main(args: readonly string[]): Promise<number> {
     return fail(2, `Scenario file "${file}" could not be parsed as JSON: ${error instanceof Error ? error.message : String(error)}`);
   }
 
-  let stopThread = (): void => undefined;
+  const gap = compact ? "" : "  ";
+  // A large scenario: half the rules on a second core. The worker starts now, so that its
+  // start-up overlaps the checks below; it is stopped unused if the scenario turns out small or bad.
+  const large = (json as { sources?: unknown[]; providers?: unknown[] } | null);
+  const pairs = Array.isArray(large?.sources) && Array.isArray(large?.providers) ? large.sources.length * large.providers.length : 0;
+  const thread = pairs >= PARALLEL_PAIRS ? startRuleThread() : null;
   try {
     const scenario = parseScenario(json);
     const rules = rulesToRun(scenario);
-    let result: ScenarioResult;
+    let result: ScenarioResult<RenderedRuleReport>;
     const threadRules = rules.filter((rule) => SECOND_THREAD_RULES.includes(rule));
-    if (scenario.sources.length * scenario.providers.length >= PARALLEL_PAIRS && threadRules.length > 0 && threadRules.length < rules.length) {
-      // A large scenario: half the rules on a second core; its start-up overlaps this thread's work.
-      const thread = solveRulesOnThread({ document: json, rules: threadRules });
-      stopThread = thread.stop;
-      const own = solveScenario(scenario, { rules: rules.filter((rule) => !threadRules.includes(rule)) });
+    if (thread && threadRules.length > 0 && threadRules.length < rules.length) {
+      // Road km once, in memory both threads read; the worker gets the checked scenario.
+      const distances = lineDistances(scenario, sharedFloat64Array);
+      thread.send({ scenario, distances, rules: threadRules, gap });
+      const own = renderRuleReports(solveScenario(scenario, { rules: rules.filter((rule) => !threadRules.includes(rule)), distances }), gap);
       result = mergeScenarioResults([own, await thread.result]);
     } else {
-      result = solveScenario(scenario);
+      thread?.stop();
+      result = renderRuleReports(solveScenario(scenario), gap);
     }
-    process.stdout.write(`${JSON.stringify(result, null, compact ? undefined : 2)}\n`);
+    for (const chunk of resultJsonChunks(result, gap)) process.stdout.write(chunk);
+    process.stdout.write("\n");
     const periodsWithout = (result.periods ?? []).flatMap((period) =>
       Object.values(period.lines).flatMap((line) => line.noSteadyState ?? []),
     );
@@ -79,7 +91,7 @@ async function main(args: readonly string[]): Promise<number> {
     }
     return 0;
   } catch (error) {
-    stopThread();
+    thread?.stop();
     if (error instanceof ScenarioInputError) {
       return fail(2, `Invalid scenario in "${file}" (${error.issues.length} ${error.issues.length === 1 ? "issue" : "issues"}):\n${error.issues.map((issue) => `  ${issue.path}: ${issue.message}`).join("\n")}`);
     }

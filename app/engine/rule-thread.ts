@@ -2,30 +2,47 @@
  * Node only (the CLI): solves some of a scenario's rules on a worker thread while the calling
  * thread solves the others, so a large scenario uses two cores. The worker runs
  * `rule-thread-entry.ts` from source (`typescript-worker.ts`).
+ *
+ * The worker receives what the caller already has — the validated scenario and the road km of
+ * every line (in shared memory, not copied) — so nothing is validated or computed twice, and it
+ * answers with its rules' reports already written as JSON text (`result-json.ts`): cloning a
+ * text is far cheaper than cloning millions of small objects, and the writing is done on its core.
  * Results of the two threads are joined by `mergeScenarioResults`.
  */
+import type { LineDistances } from "./build-problem";
 import type { RuleKey } from "./problem";
+import type { RenderedRuleReport } from "./result-json";
+import type { Scenario } from "./scenario";
 import type { ScenarioResult } from "./solve-scenario";
 import { startTypeScriptWorker } from "./typescript-worker";
 
 export interface RuleThreadRequest {
-  /** The scenario document as read (the worker validates it again, as the caller does). */
-  document: unknown;
+  /** The scenario as `parseScenario` returned it (already checked). */
+  scenario: Scenario;
+  /** Road km per line (`lineDistances`), best in shared memory so that posting does not copy them. */
+  distances: LineDistances;
   rules: RuleKey[];
+  /** JSON.stringify's gap for the reports' text ("" for compact output). */
+  gap: string;
 }
 
-export type RuleThreadReply = { ok: true; result: ScenarioResult } | { ok: false; message: string };
+export type RuleThreadReply = { ok: true; result: ScenarioResult<RenderedRuleReport> } | { ok: false; message: string };
+
+/** Road km arrays in memory both threads can read (allocator for `lineDistances`). */
+export function sharedFloat64Array(length: number): Float64Array {
+  return new Float64Array(new SharedArrayBuffer(length * Float64Array.BYTES_PER_ELEMENT));
+}
 
 /**
- * Starts the worker at once (its start-up overlaps the caller's own work). `result` resolves with
- * the worker's part of the result, or rejects when the worker fails; `stop` ends the worker early
- * (when the caller's own part failed). The worker exits after answering.
+ * Starts the worker at once (its start-up overlaps the caller's own work) and posts the request
+ * when `send` is called. `result` resolves with the worker's part of the result, or rejects when
+ * the worker fails; `stop` ends the worker early (when the caller's own part failed). The worker
+ * exits after answering.
  */
-export function solveRulesOnThread(request: RuleThreadRequest): { result: Promise<ScenarioResult>; stop: () => void } {
+export function startRuleThread(): { send: (request: RuleThreadRequest) => void; result: Promise<ScenarioResult<RenderedRuleReport>>; stop: () => void } {
   const entry = new URL("./rule-thread-entry.ts", import.meta.url).href;
   const worker = startTypeScriptWorker(entry);
-  worker.postMessage(request);
-  const result = new Promise<ScenarioResult>((resolve, reject) => {
+  const result = new Promise<ScenarioResult<RenderedRuleReport>>((resolve, reject) => {
     worker.once("message", (reply: RuleThreadReply) => {
       void worker.terminate();
       if (reply.ok) resolve(reply.result);
@@ -36,5 +53,5 @@ export function solveRulesOnThread(request: RuleThreadRequest): { result: Promis
   });
   // A rejection nobody awaits (after `stop`) must not end the process.
   result.catch(() => undefined);
-  return { result, stop: () => void worker.terminate() };
+  return { send: (request) => worker.postMessage(request), result, stop: () => void worker.terminate() };
 }

@@ -14,7 +14,7 @@
  *    `converged: false` with its `overloads`; patient choice may be fine on the same line.
  */
 import { PLANNING_CAUTIONS } from "./cautions";
-import { buildLineProblems, type LineBuild, type Shortfall } from "./build-problem";
+import { buildLineProblems, type LineBuild, type LineDistances, type Shortfall } from "./build-problem";
 import { solveChoice } from "./equilibrium";
 import { solveCapacityShare, solveNearest } from "./fixed-rules";
 import { solveLogit } from "./logit";
@@ -37,9 +37,18 @@ export interface SolveScenarioOptions {
   rules?: readonly RuleKey[];
   /** Solve the periods too when the scenario has them. Default true. */
   periods?: boolean;
+  /** Road km per line already computed (`lineDistances`); filled here when missing, and shared by the periods. */
+  distances?: LineDistances;
 }
 
-export interface LineReport {
+/** What merging results reads from a rule's report (`mergeScenarioResults`): its total cost and warnings. */
+export type RuleSummary = Pick<RuleReport, "totalCost" | "warnings">;
+
+/**
+ * The result types take the type of a rule's report as a parameter: `RuleReport` everywhere but
+ * in the command line, which carries reports already written as JSON text (`result-json.ts`).
+ */
+export interface LineReport<R extends RuleSummary = RuleReport> {
   name: string;
   standardWeeks: number;
   /** totalCost(choice) / totalCost(optimum); null when either is missing, infinite or the optimum costs 0. */
@@ -48,29 +57,29 @@ export interface LineReport {
   urgentPerWeek: number;
   /** Σ sites' capacity (referrals/week). */
   capacityPerWeek: number;
-  rules: Partial<Record<RuleKey, RuleReport>>;
+  rules: Partial<Record<RuleKey, R>>;
   warnings: string[];
   /** Present when this line has no steady state in this period. */
   noSteadyState?: Shortfall[];
 }
 
-export interface PeriodReport {
+export interface PeriodReport<R extends RuleSummary = RuleReport> {
   id: string;
   label: string;
   weeks: number;
   demandFactor: number | Record<string, number>;
   teamsFactor: number | Record<string, number>;
   priceOfAnarchy: number | null;
-  lines: Record<string, LineReport>;
+  lines: Record<string, LineReport<R>>;
   warnings: string[];
 }
 
-export interface ScenarioResult {
+export interface ScenarioResult<R extends RuleSummary = RuleReport> {
   schema: typeof RESULT_SCHEMA;
   name: string | null;
   priceOfAnarchy: number | null;
-  lines: Record<string, LineReport>;
-  periods?: PeriodReport[];
+  lines: Record<string, LineReport<R>>;
+  periods?: PeriodReport<R>[];
   assumptions: {
     kmPerWeek: number;
     kmPerWeekNote: string;
@@ -96,7 +105,8 @@ type WarmStarts = Map<string, Partial<Record<RuleKey, RuleSolution>>>;
  */
 export function solveScenario(scenario: Scenario, options: SolveScenarioOptions = {}): ScenarioResult {
   const rules = rulesToRun(scenario, options.rules);
-  const builds = buildLineProblems(scenario);
+  const distances = options.distances ?? new Map();
+  const builds = buildLineProblems(scenario, undefined, distances);
   const shortfalls = builds.flatMap((build) => build.shortfalls);
   if (shortfalls.length > 0) throw new NoSteadyStateError(shortfalls);
 
@@ -110,7 +120,7 @@ export function solveScenario(scenario: Scenario, options: SolveScenarioOptions 
     // Each period starts from the previous one's solution (the first from the stationary solve):
     // consecutive periods differ by a few percent, so the solvers start close to the answer.
     for (const period of scenario.periods) {
-      const report = solvePeriod(scenario, period, rules, warm);
+      const report = solvePeriod(scenario, period, rules, warm, distances);
       periods.push(report);
       warnings.push(...report.warnings.map((warning) => `Period ${period.id}: ${warning}`));
     }
@@ -135,8 +145,8 @@ export function rulesToRun(scenario: Scenario, requested?: readonly RuleKey[]): 
   return RULE_ORDER.filter((rule) => applies(rule) && (!requested || requested.includes(rule)));
 }
 
-function solvePeriod(scenario: Scenario, period: ScenarioPeriod, rules: RuleKey[], warm: WarmStarts): PeriodReport {
-  const builds = buildLineProblems(scenario, period);
+function solvePeriod(scenario: Scenario, period: ScenarioPeriod, rules: RuleKey[], warm: WarmStarts, distances: LineDistances): PeriodReport {
+  const builds = buildLineProblems(scenario, period, distances);
   const solvable = builds.filter((build) => build.shortfalls.length === 0);
   const lines = solveLines(scenario, solvable, rules, warm);
   const ordered: Record<string, LineReport> = {};
@@ -244,14 +254,14 @@ function emptySolution(build: LineBuild): RuleSolution {
  * threads): each line's rules in RULE_ORDER, and the prices of anarchy and warnings recomputed as
  * `solveScenario` would have made them with every rule at once.
  */
-export function mergeScenarioResults(parts: readonly ScenarioResult[]): ScenarioResult {
+export function mergeScenarioResults<R extends RuleSummary>(parts: readonly ScenarioResult<R>[]): ScenarioResult<R> {
   const [first] = parts;
   if (!first) throw new Error("mergeScenarioResults needs at least one result.");
-  const mergeLines = (each: Record<string, LineReport>[]): Record<string, LineReport> => {
-    const merged: Record<string, LineReport> = {};
+  const mergeLines = (each: Record<string, LineReport<R>>[]): Record<string, LineReport<R>> => {
+    const merged: Record<string, LineReport<R>> = {};
     for (const lineId of Object.keys(each[0])) {
       const versions = each.map((lines) => lines[lineId]);
-      const rules: LineReport["rules"] = {};
+      const rules: LineReport<R>["rules"] = {};
       // Warnings not about a rule (no steady state) are the same in every part; a rule's are
       // prefixed with its name and come from the part that solved it.
       const warnings = versions[0].warnings.filter((warning) => !RULE_ORDER.some((rule) => warning.startsWith(`${rule}: `)));
@@ -270,8 +280,8 @@ export function mergeScenarioResults(parts: readonly ScenarioResult[]): Scenario
   };
   const lines = mergeLines(parts.map((part) => part.lines));
   const warnings = collectWarnings(lines, "");
-  const periods = first.periods?.map((period, index): PeriodReport => {
-    const periodLines = mergeLines(parts.map((part) => (part.periods as PeriodReport[])[index].lines));
+  const periods = first.periods?.map((period, index): PeriodReport<R> => {
+    const periodLines = mergeLines(parts.map((part) => (part.periods as PeriodReport<R>[])[index].lines));
     const report = { ...period, priceOfAnarchy: overallPriceOfAnarchy(periodLines), lines: periodLines, warnings: collectWarnings(periodLines, "") };
     warnings.push(...report.warnings.map((warning) => `Period ${period.id}: ${warning}`));
     return report;
@@ -280,7 +290,7 @@ export function mergeScenarioResults(parts: readonly ScenarioResult[]): Scenario
 }
 
 /** Σ_lines totalCost(choice) / Σ_lines totalCost(optimum), over lines where both are finite. */
-function overallPriceOfAnarchy(lines: Record<string, LineReport>): number | null {
+function overallPriceOfAnarchy(lines: Record<string, LineReport<RuleSummary>>): number | null {
   let choice = 0;
   let optimum = 0;
   for (const line of Object.values(lines)) {
@@ -294,7 +304,7 @@ function overallPriceOfAnarchy(lines: Record<string, LineReport>): number | null
   return optimum > 0 ? finite(choice / optimum) : null;
 }
 
-function collectWarnings(lines: Record<string, LineReport>, prefix: string): string[] {
+function collectWarnings(lines: Record<string, LineReport<RuleSummary>>, prefix: string): string[] {
   return Object.entries(lines).flatMap(([lineId, line]) => line.warnings.map((warning) => `${prefix}Line ${lineId}: ${warning}`));
 }
 

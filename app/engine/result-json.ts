@@ -1,0 +1,90 @@
+/**
+ * The result JSON (`equilibra/result@1`) written in parts, byte for byte what
+ * `JSON.stringify(result, null, gap)` gives, for the command line.
+ *
+ * Why in parts: on a national instance one rule's report holds millions of practice→site flows
+ * (tens of MB of text), and turning them into text is most of the cost after solving. Each rule's
+ * report is written on the thread that solved it (`renderRuleReports`), so the two threads share
+ * that work, and only short summaries and the text cross between them. The rest of the result is
+ * small: it is stringified with a placeholder where each report goes, and the reports' texts are
+ * put in its place (`resultJsonChunks`), chunk by chunk, without joining them into one string.
+ *
+ * Exactness: inside `JSON.stringify(parent, null, gap)` a value at depth d is written exactly as
+ * `JSON.stringify(value, null, gap)` with every line break followed by d more gaps (JSON strings
+ * never hold a raw line break), so a report written alone at its depth is the same text.
+ */
+import type { RuleReport } from "./rule-report";
+import type { LineReport, PeriodReport, RuleSummary, ScenarioResult } from "./solve-scenario";
+
+/** A rule's report as JSON text, with what merging results reads from it. */
+export interface RenderedRuleReport extends RuleSummary {
+  json: string;
+}
+
+/** Depth of a rule's report in the result: result.lines[id].rules[rule], result.periods[k].lines[id].rules[rule]. */
+const LINE_RULE_DEPTH = 4;
+const PERIOD_RULE_DEPTH = 6;
+
+/** `JSON.stringify(value, null, gap)` as it appears at `depth` inside a larger document. */
+export function jsonAtDepth(value: unknown, gap: string, depth: number): string {
+  const text = JSON.stringify(value, null, gap);
+  return gap === "" || depth === 0 ? text : text.replaceAll("\n", `\n${gap.repeat(depth)}`);
+}
+
+/** Every rule report of a result written as JSON text (`gap` as JSON.stringify's third argument). */
+export function renderRuleReports(result: ScenarioResult, gap: string): ScenarioResult<RenderedRuleReport> {
+  const renderLines = (lines: Record<string, LineReport>, depth: number): Record<string, LineReport<RenderedRuleReport>> => {
+    const rendered: Record<string, LineReport<RenderedRuleReport>> = {};
+    for (const [lineId, line] of Object.entries(lines)) {
+      const rules: LineReport<RenderedRuleReport>["rules"] = {};
+      for (const [rule, report] of Object.entries(line.rules) as [keyof typeof line.rules, RuleReport][]) {
+        rules[rule] = { totalCost: report.totalCost, warnings: report.warnings, json: jsonAtDepth(report, gap, depth) };
+      }
+      rendered[lineId] = { ...line, rules };
+    }
+    return rendered;
+  };
+  // `periods` is overwritten in place (undefined when absent, which JSON leaves out): key order is kept.
+  return {
+    ...result,
+    lines: renderLines(result.lines, LINE_RULE_DEPTH),
+    periods: result.periods?.map((period): PeriodReport<RenderedRuleReport> => ({ ...period, lines: renderLines(period.lines, PERIOD_RULE_DEPTH) })),
+  };
+}
+
+/**
+ * The whole result's JSON text as chunks to write in order (their concatenation is
+ * `JSON.stringify(result, null, gap)` of the result with every report in place).
+ */
+export function resultJsonChunks(result: ScenarioResult<RenderedRuleReport>, gap: string): string[] {
+  // A placeholder no scenario text can contain: NUL (escaped by JSON.stringify) and a fresh nonce.
+  const nonce = `${Date.now().toString(36)}${Math.random().toString(36).slice(2)}`;
+  const texts: string[] = [];
+  const placeholder = (report: RenderedRuleReport): string => `\u0000${nonce}:${texts.push(report.json) - 1}\u0000`;
+  const shellLines = (lines: Record<string, LineReport<RenderedRuleReport>>): Record<string, unknown> => {
+    const shell: Record<string, unknown> = {};
+    for (const [lineId, line] of Object.entries(lines)) {
+      const rules: Record<string, string> = {};
+      for (const [rule, report] of Object.entries(line.rules)) if (report) rules[rule] = placeholder(report);
+      shell[lineId] = { ...line, rules };
+    }
+    return shell;
+  };
+  // Object spread keeps the key order of the result, so the shell is written in the same order.
+  const shell = {
+    ...result,
+    lines: shellLines(result.lines),
+    periods: result.periods?.map((period) => ({ ...period, lines: shellLines(period.lines) })),
+  };
+  const text = JSON.stringify(shell, null, gap);
+  // In the text each placeholder is the string literal "\u0000<nonce>:<k>\u0000" (NUL escaped).
+  const pattern = new RegExp(`"\\\\u0000${nonce}:(\\d+)\\\\u0000"`, "g");
+  const chunks: string[] = [];
+  let from = 0;
+  for (const match of text.matchAll(pattern)) {
+    chunks.push(text.slice(from, match.index), texts[Number(match[1])]);
+    from = (match.index ?? 0) + match[0].length;
+  }
+  chunks.push(text.slice(from));
+  return chunks;
+}

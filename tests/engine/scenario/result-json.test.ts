@@ -1,0 +1,55 @@
+/**
+ * The command line writes the result in parts (`result-json.ts`): every rule's report as text on
+ * the thread that solved it, then the rest of the result around them. The reference is
+ * `JSON.stringify(result, null, gap)` as ECMA-262 (§25.5.2, JSON.stringify) defines it: the text
+ * must be the same byte for byte, compact and indented, with periods, and when the rules were
+ * solved in two parts and merged.
+ */
+import { readFileSync } from "node:fs";
+import { describe, expect, it } from "vitest";
+import { lineDistances } from "~/engine/build-problem";
+import { jsonAtDepth, renderRuleReports, resultJsonChunks } from "~/engine/result-json";
+import { parseScenario, type Scenario } from "~/engine/scenario";
+import { mergeScenarioResults, rulesToRun, solveScenario } from "~/engine/solve-scenario";
+import { generateScenarioDocument, LARGE } from "../../bench/generate";
+
+const fixture = (name: string) => JSON.parse(readFileSync(new URL(`./fixtures/${name}`, import.meta.url), "utf8"));
+const demo = () => JSON.parse(readFileSync(new URL("../../../seed/demo-scenario.json", import.meta.url), "utf8"));
+
+const cases: [string, () => Scenario][] = [
+  ["two practices, two sites (small)", () => parseScenario(fixture("two-practices-two-sites.json"))],
+  ["the demo region: 4 lines and periods, one without a steady state", () => parseScenario(demo())],
+  // Mid-size: 300 practices × 30 sites, capacity share's flows on every pair.
+  ["a generated region of 300 × 30", () => parseScenario(generateScenarioDocument({ ...LARGE, sources: 300, sites: 30, towns: 12, seed: 5 }))],
+];
+
+describe("the result written in parts is JSON.stringify's text", () => {
+  for (const [name, load] of cases) {
+    const scenario = load();
+    const whole = solveScenario(scenario);
+    for (const gap of ["", "  "]) {
+      it(`${name}, ${gap ? "indented" : "compact"}: all rules on one thread`, () => {
+        const text = resultJsonChunks(renderRuleReports(whole, gap), gap).join("");
+        expect(text).toBe(JSON.stringify(whole, null, gap));
+      });
+    }
+    it(`${name}: rules solved in two parts (shared distances) and merged`, () => {
+      const rules = rulesToRun(scenario);
+      const distances = lineDistances(scenario);
+      const first = rules.filter((_, index) => index % 2 === 0);
+      const parts = [first, rules.filter((rule) => !first.includes(rule))].map((part) =>
+        renderRuleReports(solveScenario(scenario, { rules: part, distances }), "  "),
+      );
+      const text = resultJsonChunks(mergeScenarioResults(parts), "  ").join("");
+      expect(text).toBe(JSON.stringify(whole, null, "  "));
+    });
+  }
+
+  it("a value written alone at a depth is the text it has inside its parent", () => {
+    const value = { a: [1, { b: "x\ny" }], c: {}, d: [], e: null };
+    const parent = { outer: { inner: value } };
+    const text = JSON.stringify(parent, null, "  ");
+    expect(text).toContain(jsonAtDepth(value, "  ", 2));
+    expect(text.replace(jsonAtDepth(value, "  ", 2), "X")).toBe(JSON.stringify({ outer: { inner: "X" } }, null, "  ").replace('"X"', "X"));
+  });
+});
