@@ -14,10 +14,10 @@
 import { readFileSync } from "node:fs";
 import { lineDistances } from "./build-problem";
 import { NoSteadyStateError, type RuleKey, ScenarioInputError } from "./problem";
-import { type RenderedRuleReport, renderRuleReports, resultJsonChunks } from "./result-json";
+import { type RenderedRuleReport, resultJsonChunks, solveScenarioAsJson } from "./result-json";
 import { sharedFloat64Array, startRuleThread } from "./rule-thread";
 import { parseScenario } from "./scenario";
-import { mergeScenarioResults, rulesToRun, type ScenarioResult, solveScenario } from "./solve-scenario";
+import { mergeScenarioResults, rulesToRun, type ScenarioResult } from "./solve-scenario";
 
 const USAGE = "Usage: npm run solve -- FILE.json [--compact]";
 
@@ -75,11 +75,11 @@ async function main(args: readonly string[]): Promise<number> {
       // Road km once, in memory both threads read; the worker gets the checked scenario.
       const distances = lineDistances(scenario, sharedFloat64Array);
       thread.send({ scenario, distances, rules: threadRules, gap });
-      const own = renderRuleReports(solveScenario(scenario, { rules: rules.filter((rule) => !threadRules.includes(rule)), distances }), gap);
+      const own = solveScenarioAsJson(scenario, { rules: rules.filter((rule) => !threadRules.includes(rule)), distances }, gap);
       result = mergeScenarioResults([own, await thread.result]);
     } else {
       thread?.stop();
-      result = renderRuleReports(solveScenario(scenario), gap);
+      result = solveScenarioAsJson(scenario, {}, gap);
     }
     for (const chunk of resultJsonChunks(result, gap)) process.stdout.write(chunk);
     process.stdout.write("\n");

@@ -4,41 +4,42 @@
  *
  * Why in parts: on a national instance one rule's report holds millions of practice→site flows
  * (tens of MB of text), and turning them into text is most of the cost after solving. Each rule's
- * report is written on the thread that solved it (`renderRuleReports`), so the two threads share
- * that work, and only short summaries and the text cross between them. The rest of the result is
- * small: it is stringified with a placeholder where each report goes, and the reports' texts are
- * put in its place (`resultJsonChunks`), chunk by chunk, without joining them into one string.
+ * report is written as text on the thread that solved it, straight from the solution's arrays
+ * (`ruleReportJson` via `solveScenarioAsJson`), so the two threads share that work and only short
+ * summaries and the text cross between them. The rest of the result is small: it is stringified
+ * with a placeholder where each report goes, and the reports' texts are put in its place
+ * (`resultJsonChunks`), chunk by chunk, without joining them into one string.
  *
  * Exactness: inside `JSON.stringify(parent, null, gap)` a value at depth d is written exactly as
  * `JSON.stringify(value, null, gap)` with every line break followed by d more gaps (JSON strings
  * never hold a raw line break), so a report written alone at its depth is the same text.
  */
-import type { RuleReport } from "./rule-report";
-import type { LineReport, PeriodReport, RuleSummary, ScenarioResult } from "./solve-scenario";
+import { utf8 } from "./byte-writer";
+import { indentAtDepth, type RuleReport, type RuleReportJson, ruleReportJson } from "./rule-report";
+import type { Scenario } from "./scenario";
+import { type LineReport, type PeriodReport, RULE_REPORT_DEPTH, type ScenarioResult, solveScenarioWith, type SolveScenarioOptions } from "./solve-scenario";
 
 /** A rule's report as JSON text, with what merging results reads from it. */
-export interface RenderedRuleReport extends RuleSummary {
-  json: string;
-}
-
-/** Depth of a rule's report in the result: result.lines[id].rules[rule], result.periods[k].lines[id].rules[rule]. */
-const LINE_RULE_DEPTH = 4;
-const PERIOD_RULE_DEPTH = 6;
+export type RenderedRuleReport = RuleReportJson;
 
 /** `JSON.stringify(value, null, gap)` as it appears at `depth` inside a larger document. */
 export function jsonAtDepth(value: unknown, gap: string, depth: number): string {
-  const text = JSON.stringify(value, null, gap);
-  return gap === "" || depth === 0 ? text : text.replaceAll("\n", `\n${gap.repeat(depth)}`);
+  return indentAtDepth(JSON.stringify(value, null, gap), gap, depth);
 }
 
-/** Every rule report of a result written as JSON text (`gap` as JSON.stringify's third argument). */
+/** `solveScenario` with every rule's report written as JSON text (`gap` as JSON.stringify's third argument). */
+export function solveScenarioAsJson(scenario: Scenario, options: SolveScenarioOptions, gap: string): ScenarioResult<RenderedRuleReport> {
+  return solveScenarioWith(scenario, options, (solved, build, solution, depth) => ruleReportJson(solved, build, solution, gap, depth));
+}
+
+/** Every rule report of a solved result written as JSON text (the same text as `solveScenarioAsJson`'s), from its objects. */
 export function renderRuleReports(result: ScenarioResult, gap: string): ScenarioResult<RenderedRuleReport> {
   const renderLines = (lines: Record<string, LineReport>, depth: number): Record<string, LineReport<RenderedRuleReport>> => {
     const rendered: Record<string, LineReport<RenderedRuleReport>> = {};
     for (const [lineId, line] of Object.entries(lines)) {
       const rules: LineReport<RenderedRuleReport>["rules"] = {};
       for (const [rule, report] of Object.entries(line.rules) as [keyof typeof line.rules, RuleReport][]) {
-        rules[rule] = { totalCost: report.totalCost, warnings: report.warnings, json: jsonAtDepth(report, gap, depth) };
+        rules[rule] = { totalCost: report.totalCost, warnings: report.warnings, json: [utf8(jsonAtDepth(report, gap, depth))] };
       }
       rendered[lineId] = { ...line, rules };
     }
@@ -47,19 +48,19 @@ export function renderRuleReports(result: ScenarioResult, gap: string): Scenario
   // `periods` is overwritten in place (undefined when absent, which JSON leaves out): key order is kept.
   return {
     ...result,
-    lines: renderLines(result.lines, LINE_RULE_DEPTH),
-    periods: result.periods?.map((period): PeriodReport<RenderedRuleReport> => ({ ...period, lines: renderLines(period.lines, PERIOD_RULE_DEPTH) })),
+    lines: renderLines(result.lines, RULE_REPORT_DEPTH.line),
+    periods: result.periods?.map((period): PeriodReport<RenderedRuleReport> => ({ ...period, lines: renderLines(period.lines, RULE_REPORT_DEPTH.period) })),
   };
 }
 
 /**
- * The whole result's JSON text as chunks to write in order (their concatenation is
- * `JSON.stringify(result, null, gap)` of the result with every report in place).
+ * The whole result's JSON text as chunks to write in order, text or UTF-8 bytes (their
+ * concatenation is `JSON.stringify(result, null, gap)` of the result with every report in place).
  */
-export function resultJsonChunks(result: ScenarioResult<RenderedRuleReport>, gap: string): string[] {
+export function resultJsonChunks(result: ScenarioResult<RenderedRuleReport>, gap: string): (string | Uint8Array)[] {
   // A placeholder no scenario text can contain: NUL (escaped by JSON.stringify) and a fresh nonce.
   const nonce = `${Date.now().toString(36)}${Math.random().toString(36).slice(2)}`;
-  const texts: string[] = [];
+  const texts: Uint8Array[][] = [];
   const placeholder = (report: RenderedRuleReport): string => `\u0000${nonce}:${texts.push(report.json) - 1}\u0000`;
   const shellLines = (lines: Record<string, LineReport<RenderedRuleReport>>): Record<string, unknown> => {
     const shell: Record<string, unknown> = {};
@@ -79,10 +80,10 @@ export function resultJsonChunks(result: ScenarioResult<RenderedRuleReport>, gap
   const text = JSON.stringify(shell, null, gap);
   // In the text each placeholder is the string literal "\u0000<nonce>:<k>\u0000" (NUL escaped).
   const pattern = new RegExp(`"\\\\u0000${nonce}:(\\d+)\\\\u0000"`, "g");
-  const chunks: string[] = [];
+  const chunks: (string | Uint8Array)[] = [];
   let from = 0;
   for (const match of text.matchAll(pattern)) {
-    chunks.push(text.slice(from, match.index), texts[Number(match[1])]);
+    chunks.push(text.slice(from, match.index), ...texts[Number(match[1])]);
     from = (match.index ?? 0) + match[0].length;
   }
   chunks.push(text.slice(from));

@@ -16,6 +16,7 @@
  */
 import type { LineBuild } from "./build-problem";
 import { allocationTotalCost } from "./allocation-cost";
+import { ByteWriter, utf8 } from "./byte-writer";
 import { balkingCost } from "./outside-option";
 import type { Allocation, SolveDiagnostics } from "./problem";
 import type { Scenario } from "./scenario";
@@ -130,7 +131,97 @@ export function finite(value: number): number | null {
 
 /** Assembles the report of one rule's solution on one line. */
 export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleSolution): RuleReport {
-  if (solution.status === "infeasible") return infeasibleReport(build, solution);
+  return assembleReport(scenario, build, solution, null).report;
+}
+
+/** A rule's report written as JSON text (UTF-8 chunks, in order), with what merging results reads from it. */
+export interface RuleReportJson {
+  totalCost: number | null;
+  warnings: string[];
+  json: Uint8Array[];
+}
+
+/**
+ * The report of `reportRule` written straight as JSON text: exactly
+ * `JSON.stringify(reportRule(scenario, build, solution), null, gap)` as it appears at `depth`
+ * inside a larger document (every line break followed by `depth` more gaps). The practices'
+ * flows — millions on a national instance — are written from the solution's arrays as they are
+ * met, never made into objects: each practice's flows go through JSON.stringify as one array of
+ * numbers (its number formatting is the fastest there is), and the site keys are put in place
+ * of the commas as the text is copied into bytes (`ByteWriter.asciiWithKeys`).
+ */
+export function ruleReportJson(scenario: Scenario, build: LineBuild, solution: RuleSolution, gap: string, depth: number): RuleReportJson {
+  const layout = jsonLayout(gap, depth, build.problem.siteIds);
+  const { report, sourceBytes } = assembleReport(scenario, build, solution, layout);
+  const { sources: _objects, ...head } = report;
+  const headText = indentAtDepth(JSON.stringify(head, null, gap), gap, depth);
+  // `sources` is the report's last key: its text goes where the head's closing brace was.
+  const close = gap === "" ? "}" : `\n${gap.repeat(depth)}}`;
+  const opening = `${headText.slice(0, headText.length - close.length)}${layout.lastKeySeparator}"sources"${layout.colon}`;
+  const json = sourceBytes ? [utf8(opening), sourceBytes, utf8(close)] : [utf8(`${opening}[]${close}`)];
+  return { totalCost: report.totalCost, warnings: report.warnings, json };
+}
+
+/** `text` (JSON.stringify output) as it appears at `depth` inside a larger document. */
+export function indentAtDepth(text: string, gap: string, depth: number): string {
+  return gap === "" || depth === 0 ? text : text.replaceAll("\n", `\n${gap.repeat(depth)}`);
+}
+
+/** The punctuation JSON.stringify(…, null, gap) puts around a report's sources at a depth. */
+interface JsonLayout {
+  colon: string;
+  /** Before the report's last key (`sources`), after the key before it. */
+  lastKeySeparator: string;
+  rowsOpen: string;
+  rowsSeparator: string;
+  rowsClose: string;
+  /** Around a practice's fields. */
+  fieldsOpen: string;
+  fieldsSeparator: string;
+  fieldsClose: string;
+  /** Around a practice's flows (as bytes), and each site's key with the colon after it. */
+  flowsOpen: Uint8Array;
+  flowsSeparator: Uint8Array;
+  flowsClose: Uint8Array;
+  siteKeys: Uint8Array[];
+}
+
+function jsonLayout(gap: string, depth: number, siteIds: readonly string[]): JsonLayout {
+  const colon = gap === "" ? ":" : ": ";
+  // The report at `depth`; its sources array at depth + 1, a practice at + 2, its fields at + 3, its flows at + 4.
+  const line = (level: number) => (gap === "" ? "" : `\n${gap.repeat(depth + level)}`);
+  return {
+    colon,
+    lastKeySeparator: `,${line(1)}`,
+    rowsOpen: `[${line(2)}`,
+    rowsSeparator: `,${line(2)}`,
+    rowsClose: `${line(1)}]`,
+    fieldsOpen: `{${line(3)}`,
+    fieldsSeparator: `,${line(3)}`,
+    fieldsClose: `${line(2)}}`,
+    flowsOpen: utf8(`{${line(4)}`),
+    flowsSeparator: utf8(`,${line(4)}`),
+    flowsClose: utf8(`${line(3)}}`),
+    siteKeys: siteIds.map((id) => utf8(`${JSON.stringify(id)}${colon}`)),
+  };
+}
+
+/**
+ * The report as objects, or — with a layout — with the practices' entries written as the JSON
+ * array `sources` instead (`sourceBytes`, null when there are none; `report.sources` left empty).
+ * One loop for both, so the two cannot differ.
+ */
+function assembleReport(
+  scenario: Scenario,
+  build: LineBuild,
+  solution: RuleSolution,
+  layout: JsonLayout | null,
+): { report: RuleReport; sourceBytes: Uint8Array | null } {
+  if (solution.status === "infeasible") return { report: infeasibleReport(build, solution), sourceBytes: null };
+  const writer = layout && build.problem.n > 0 ? new ByteWriter() : null;
+  // A practice's flows in text form: their values (for one JSON.stringify) and their sites' keys.
+  const flowValues: number[] = [];
+  const flowKeys: Uint8Array[] = [];
   const { problem, siteSpecs, urgentInflow, urgentDemand, urgentSite, standardWeeks } = build;
   const { n, m } = problem;
   const allocation = solution.allocation;
@@ -193,6 +284,8 @@ export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleS
   for (let i = 0; i < n; i++) {
     const source = scenario.sources[build.sourceIndex[i]];
     const flows: Record<string, number> = {};
+    flowValues.length = 0;
+    flowKeys.length = 0;
     let sourceServed = 0;
     let sourceWait = 0;
     let sourceKm = 0;
@@ -203,7 +296,12 @@ export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleS
       const urgent = urgentSite[i] === j ? urgentDemand[i] : 0;
       const flow = routine + urgent;
       if (flow <= FLOW_REPORT_THRESHOLD) continue;
-      flows[problem.siteIds[j]] = flow;
+      if (layout) {
+        flowValues.push(flow);
+        flowKeys.push(layout.siteKeys[j]);
+      } else {
+        flows[problem.siteIds[j]] = flow;
+      }
       sourceServed += flow;
       sourceKm += flow * problem.km[pair];
       if (routine > 0) {
@@ -220,7 +318,7 @@ export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleS
     servedKm += sourceKm;
     sourceCost += balkingCost(sourceBalked, problem.demand[i], problem.outsideCost[i], problem.outsideSpread[i]);
     const demand = problem.demand[i] + urgentDemand[i];
-    sources.push({
+    const row: Omit<SourceReport, "flows"> = {
       id: source.id,
       demand,
       balked: sourceBalked,
@@ -229,8 +327,24 @@ export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleS
       meanCost: demand > 0 ? finite(sourceCost / demand) : null,
       urgentPerWeek: urgentDemand[i],
       urgentSiteId: urgentSite[i] >= 0 ? problem.siteIds[urgentSite[i]] : null,
-      flows,
-    });
+    };
+    if (layout && writer) {
+      let text = i === 0 ? layout.rowsOpen : layout.rowsSeparator;
+      text += layout.fieldsOpen;
+      for (const [key, value] of Object.entries(row)) text += `${JSON.stringify(key)}${layout.colon}${JSON.stringify(value)}${layout.fieldsSeparator}`;
+      writer.text(`${text}"flows"${layout.colon}`);
+      if (flowValues.length === 0) writer.text("{}");
+      else {
+        // JSON numbers hold no commas, so the commas of this text are exactly the separators.
+        const numbers = JSON.stringify(flowValues);
+        writer.raw(layout.flowsOpen);
+        writer.asciiWithKeys(numbers, 1, numbers.length - 1, layout.flowsSeparator, flowKeys);
+        writer.raw(layout.flowsClose);
+      }
+      writer.text(layout.fieldsClose);
+    } else {
+      sources.push({ ...row, flows });
+    }
     sourceCosts.push({ cost: sourceCost, demand, decile: source.deprivationDecile ?? null, balked: sourceBalked, wait: sourceWait, km: sourceKm, served: sourceServed });
   }
 
@@ -240,7 +354,7 @@ export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleS
   }
   const urgentTotal = urgentInflow.reduce((total, value) => total + value, 0);
   const overloaded = (solution.overloads?.length ?? 0) > 0;
-  return {
+  const report: RuleReport = {
     status: overloaded ? "overloaded" : solution.diagnostics.converged ? "solved" : "notConverged",
     converged: solution.diagnostics.converged,
     iterations: solution.diagnostics.iterations,
@@ -259,6 +373,8 @@ export function reportRule(scenario: Scenario, build: LineBuild, solution: RuleS
     providers,
     sources,
   };
+  if (layout && writer) writer.text(layout.rowsClose);
+  return { report, sourceBytes: writer ? writer.finish() : null };
 }
 
 /** A plan whose constraints cannot all hold: the reasons, and no allocation at all. */

@@ -100,10 +100,24 @@ export interface ScenarioResult<R extends RuleSummary = RuleReport> {
 type WarmStarts = Map<string, Partial<Record<RuleKey, RuleSolution>>>;
 
 /**
+ * Makes one rule's report from its solution. `depth` is where the report sits in the result
+ * JSON (`RULE_REPORT_DEPTH`), for reports written straight as text (the command line).
+ */
+export type RuleReporter<R extends RuleSummary> = (scenario: Scenario, build: LineBuild, solution: RuleSolution, depth: number) => R;
+
+/** Depth of a rule's report in the result JSON: result.lines[id].rules[rule], result.periods[k].lines[id].rules[rule]. */
+export const RULE_REPORT_DEPTH = { line: 4, period: 6 } as const;
+
+/**
  * Solves the scenario (already checked by `parseScenario`). Throws `NoSteadyStateError` when the
  * scenario as given has none on some line.
  */
 export function solveScenario(scenario: Scenario, options: SolveScenarioOptions = {}): ScenarioResult {
+  return solveScenarioWith(scenario, options, (solved, build, solution) => reportRule(solved, build, solution));
+}
+
+/** `solveScenario` with each rule's report made by `reporter` (e.g. written as JSON text). */
+export function solveScenarioWith<R extends RuleSummary>(scenario: Scenario, options: SolveScenarioOptions, reporter: RuleReporter<R>): ScenarioResult<R> {
   const rules = rulesToRun(scenario, options.rules);
   const distances = options.distances ?? new Map();
   const builds = buildLineProblems(scenario, undefined, distances);
@@ -111,16 +125,18 @@ export function solveScenario(scenario: Scenario, options: SolveScenarioOptions 
   if (shortfalls.length > 0) throw new NoSteadyStateError(shortfalls);
 
   const warm: WarmStarts = new Map();
-  const lines = solveLines(scenario, builds, rules, warm);
+  const lines = solveLines(scenario, builds, rules, warm, (build, solution) => reporter(scenario, build, solution, RULE_REPORT_DEPTH.line));
   const warnings = collectWarnings(lines, "");
 
-  let periods: PeriodReport[] | undefined;
+  let periods: PeriodReport<R>[] | undefined;
   if (scenario.periods && options.periods !== false) {
     periods = [];
     // Each period starts from the previous one's solution (the first from the stationary solve):
     // consecutive periods differ by a few percent, so the solvers start close to the answer.
     for (const period of scenario.periods) {
-      const report = solvePeriod(scenario, period, rules, warm, distances);
+      const report = solvePeriod(scenario, period, rules, warm, distances, (build, solution) =>
+        reporter(scenario, build, solution, RULE_REPORT_DEPTH.period),
+      );
       periods.push(report);
       warnings.push(...report.warnings.map((warning) => `Period ${period.id}: ${warning}`));
     }
@@ -145,11 +161,18 @@ export function rulesToRun(scenario: Scenario, requested?: readonly RuleKey[]): 
   return RULE_ORDER.filter((rule) => applies(rule) && (!requested || requested.includes(rule)));
 }
 
-function solvePeriod(scenario: Scenario, period: ScenarioPeriod, rules: RuleKey[], warm: WarmStarts, distances: LineDistances): PeriodReport {
+function solvePeriod<R extends RuleSummary>(
+  scenario: Scenario,
+  period: ScenarioPeriod,
+  rules: RuleKey[],
+  warm: WarmStarts,
+  distances: LineDistances,
+  report: (build: LineBuild, solution: RuleSolution) => R,
+): PeriodReport<R> {
   const builds = buildLineProblems(scenario, period, distances);
   const solvable = builds.filter((build) => build.shortfalls.length === 0);
-  const lines = solveLines(scenario, solvable, rules, warm);
-  const ordered: Record<string, LineReport> = {};
+  const lines = solveLines(scenario, solvable, rules, warm, report);
+  const ordered: Record<string, LineReport<R>> = {};
   for (const build of builds) {
     if (build.shortfalls.length === 0) {
       ordered[build.lineId] = lines[build.lineId];
@@ -181,16 +204,22 @@ function lineHeader(build: LineBuild): Pick<LineReport, "name" | "standardWeeks"
   };
 }
 
-function solveLines(scenario: Scenario, builds: LineBuild[], rules: RuleKey[], warm: WarmStarts): Record<string, LineReport> {
-  const lines: Record<string, LineReport> = {};
+function solveLines<R extends RuleSummary>(
+  scenario: Scenario,
+  builds: LineBuild[],
+  rules: RuleKey[],
+  warm: WarmStarts,
+  report: (build: LineBuild, solution: RuleSolution) => R,
+): Record<string, LineReport<R>> {
+  const lines: Record<string, LineReport<R>> = {};
   for (const build of builds) {
     const previous = warm.get(build.lineId) ?? {};
     const solutions: Partial<Record<RuleKey, RuleSolution>> = {};
-    const reports: Partial<Record<RuleKey, RuleReport>> = {};
+    const reports: Partial<Record<RuleKey, R>> = {};
     for (const rule of rules) {
       const solution = runRule(scenario, build, rule, previous[rule]);
       solutions[rule] = solution;
-      reports[rule] = reportRule(scenario, build, solution);
+      reports[rule] = report(build, solution);
     }
     warm.set(build.lineId, solutions);
     const choice = reports.choice?.totalCost ?? null;

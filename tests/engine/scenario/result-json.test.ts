@@ -8,16 +8,31 @@
 import { readFileSync } from "node:fs";
 import { describe, expect, it } from "vitest";
 import { lineDistances } from "~/engine/build-problem";
-import { jsonAtDepth, renderRuleReports, resultJsonChunks } from "~/engine/result-json";
+import { jsonAtDepth, renderRuleReports, resultJsonChunks, solveScenarioAsJson } from "~/engine/result-json";
 import { parseScenario, type Scenario } from "~/engine/scenario";
 import { mergeScenarioResults, rulesToRun, solveScenario } from "~/engine/solve-scenario";
 import { generateScenarioDocument, LARGE } from "../../bench/generate";
 
 const fixture = (name: string) => JSON.parse(readFileSync(new URL(`./fixtures/${name}`, import.meta.url), "utf8"));
+/** The chunks joined as the bytes written to stdout, read back as text. */
+const joined = (chunks: (string | Uint8Array)[]) => Buffer.concat(chunks.map((chunk) => (typeof chunk === "string" ? Buffer.from(chunk, "utf8") : chunk))).toString("utf8");
 const demo = () => JSON.parse(readFileSync(new URL("../../../seed/demo-scenario.json", import.meta.url), "utf8"));
 
 const cases: [string, () => Scenario][] = [
   ["two practices, two sites (small)", () => parseScenario(fixture("two-practices-two-sites.json"))],
+  // Ids and names that JSON escapes or UTF-8 writes in several bytes, inside and outside the flows' keys.
+  [
+    "ids with quotes, backslashes and non-ASCII letters",
+    () =>
+      parseScenario(
+        JSON.parse(
+          JSON.stringify(fixture("two-practices-two-sites.json"))
+            .replaceAll("ZZS1", 'ZZS1 \\"Ünal\\" \\\\ ✓')
+            .replaceAll("ZZP001", "ZZP001 — Skåne")
+            .replaceAll("First site", "Première \\u2028 site"),
+        ),
+      ),
+  ],
   ["the demo region: 4 lines and periods, one without a steady state", () => parseScenario(demo())],
   // Mid-size: 300 practices × 30 sites, capacity share's flows on every pair.
   ["a generated region of 300 × 30", () => parseScenario(generateScenarioDocument({ ...LARGE, sources: 300, sites: 30, towns: 12, seed: 5 }))],
@@ -28,21 +43,25 @@ describe("the result written in parts is JSON.stringify's text", () => {
     const scenario = load();
     const whole = solveScenario(scenario);
     for (const gap of ["", "  "]) {
-      it(`${name}, ${gap ? "indented" : "compact"}: all rules on one thread`, () => {
-        const text = resultJsonChunks(renderRuleReports(whole, gap), gap).join("");
+      it(`${name}, ${gap ? "indented" : "compact"}: reports written straight from the solutions`, () => {
+        const text = joined(resultJsonChunks(solveScenarioAsJson(scenario, {}, gap), gap));
+        expect(text).toBe(JSON.stringify(whole, null, gap));
+      });
+      it(`${name}, ${gap ? "indented" : "compact"}: reports written from their objects`, () => {
+        const text = joined(resultJsonChunks(renderRuleReports(whole, gap), gap));
         expect(text).toBe(JSON.stringify(whole, null, gap));
       });
     }
-    it(`${name}: rules solved in two parts (shared distances) and merged`, () => {
-      const rules = rulesToRun(scenario);
-      const distances = lineDistances(scenario);
-      const first = rules.filter((_, index) => index % 2 === 0);
-      const parts = [first, rules.filter((rule) => !first.includes(rule))].map((part) =>
-        renderRuleReports(solveScenario(scenario, { rules: part, distances }), "  "),
-      );
-      const text = resultJsonChunks(mergeScenarioResults(parts), "  ").join("");
-      expect(text).toBe(JSON.stringify(whole, null, "  "));
-    });
+    for (const gap of ["", "  "]) {
+      it(`${name}, ${gap ? "indented" : "compact"}: rules solved in two parts (shared distances) and merged`, () => {
+        const rules = rulesToRun(scenario);
+        const distances = lineDistances(scenario);
+        const first = rules.filter((_, index) => index % 2 === 0);
+        const parts = [first, rules.filter((rule) => !first.includes(rule))].map((part) => solveScenarioAsJson(scenario, { rules: part, distances }, gap));
+        const text = joined(resultJsonChunks(mergeScenarioResults(parts), gap));
+        expect(text).toBe(JSON.stringify(whole, null, gap));
+      });
+    }
   }
 
   it("a value written alone at a depth is the text it has inside its parent", () => {
