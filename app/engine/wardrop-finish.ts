@@ -107,22 +107,13 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
     }
     iterations += roundIterations;
     if (pruned) continue;
-    // Site costs on the solved structure (flows are written only for the answer).
+    // Site costs on the solved structure (loads and flows are written only for the answer).
     siteCost.fill(NaN);
-    load.fill(0);
-    for (const group of groups) {
-      group.sites.forEach((j, k) => {
-        siteCost[j] = group.level + group.delta[k];
-        load[j] = view.inverses[j].load(siteCost[j]);
-      });
-    }
-    for (let j = 0; j < m; j++) {
-      if (Number.isNaN(siteCost[j])) {
-        siteCost[j] = view.inverses[j].emptyCost;
-        load[j] = 0;
-      }
-    }
+    for (const group of groups) group.sites.forEach((j, k) => (siteCost[j] = group.level + group.delta[k]));
+    for (let j = 0; j < m; j++) if (Number.isNaN(siteCost[j])) siteCost[j] = view.inverses[j].emptyCost;
     const allocate = (): void => {
+      load.fill(0);
+      for (const group of groups) for (const j of group.sites) load[j] = view.inverses[j].load(siteCost[j]);
       flow.fill(0);
       for (const group of groups) {
         for (const i of group.sources) writeSourceFlows(view, i, tie[i], group.level + sourceOffset[i], eta, flow, balked);
@@ -361,7 +352,7 @@ function groupKey(group: Group, tie: SourceTie[]): number {
     high = Math.imul(high + value, 0x5bd1e995) ^ (high >>> 15);
   };
   // In increasing order, so that the key does not depend on the order the forest visited them.
-  const sources = [...group.sources].sort((a, b) => a - b);
+  const sources = Int32Array.from(group.sources).sort();
   for (const i of sources) {
     mix(i + 1);
     for (const j of tie[i].sites) mix(-(j + 2));
