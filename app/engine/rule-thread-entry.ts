@@ -5,10 +5,18 @@ import type { RuleThreadReply, RuleThreadRequest } from "./rule-thread";
 
 parentPort?.once("message", (request: RuleThreadRequest) => {
   let reply: RuleThreadReply;
+  // The reports' bytes are handed over, not copied.
+  const transfer: ArrayBuffer[] = [];
   try {
-    reply = { ok: true, result: solveScenarioAsJson(request.scenario, { rules: request.rules, distances: request.distances }, request.gap) };
+    const result = solveScenarioAsJson(request.scenario, { rules: request.rules, distances: request.distances }, request.gap);
+    for (const lines of [result.lines, ...(result.periods ?? []).map((period) => period.lines)]) {
+      for (const line of Object.values(lines)) {
+        for (const report of Object.values(line.rules)) for (const chunk of report?.json ?? []) if (!transfer.includes(chunk.buffer as ArrayBuffer)) transfer.push(chunk.buffer as ArrayBuffer);
+      }
+    }
+    reply = { ok: true, result };
   } catch (error) {
     reply = { ok: false, message: error instanceof Error ? error.message : String(error) };
   }
-  parentPort?.postMessage(reply);
+  parentPort?.postMessage(reply, transfer);
 });
