@@ -241,9 +241,10 @@ function modelRoot(site: SiteWaitModel, pass: StreamPass, captive: number, low: 
  * indifferent patients split). A few passes per site, whatever the number of streams.
  *
  * Streams that cannot stay at any reachable wait (their range ends below the empty site's wait)
- * and patients without an outside option (always staying) are settled outside the passes; the
- * flows are written in one pass over the pairs in source order, which keeps memory access
- * sequential on a national instance (millions of pairs).
+ * and patients without an outside option (always staying) are settled outside the passes. All n·m
+ * pairs are read once, to list the streams in source order; the flows and costs are then written
+ * stream by stream in that order, which keeps memory access sequential on a national instance
+ * (millions of pairs) and costs one step per source for `nearest`.
  */
 export function solveFixedShares(
   problem: LineProblem,
@@ -274,38 +275,40 @@ export function solveFixedShares(
   const capacity = Float64Array.from(sites, (site) => site.capacity);
   const emptyWait = Float64Array.from(sites, (site) => site.wait(0));
 
-  // Pass 1 over the pairs: per site, the demand with no outside option (captive), whether any
-  // stream reaches it, and how many streams may stay at some wait (the ones the search needs).
+  // The only pass over all pairs: the streams (pairs with demand sent) in source order, and
+  // each source's total share. Every later pass goes over the streams alone — for `nearest`
+  // one per source instead of n·m pairs.
+  const { pairs, firstPair, assigned } = listStreams(n, m, demand, shares);
+  // Per site, the demand with no outside option (captive), whether any stream reaches it, and
+  // how many streams may stay at some wait (the ones the search needs).
   const captive = new Float64Array(m);
   const reached = new Uint8Array(m);
   const start = new Int32Array(m + 1);
   for (let i = 0; i < n; i++) {
-    const row = i * m;
     const free = outsideCost[i] !== Infinity;
-    for (let j = 0; j < m; j++) {
-      const stream = demand[i] * shares[row + j];
-      if (!(stream > 0)) continue;
+    for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
+      const pair = pairs[k];
+      const j = pair - i * m;
       reached[j] = 1;
-      if (!free) captive[j] += stream;
-      else if (rangeHigh[i] - travelCost[row + j] >= emptyWait[j]) start[j + 1]++;
+      if (!free) captive[j] += demand[i] * shares[pair];
+      else if (rangeHigh[i] - travelCost[pair] >= emptyWait[j]) start[j + 1]++;
     }
   }
   for (let j = 0; j < m; j++) start[j + 1] += start[j];
-  // Pass 2: those streams gathered per site (CSR layout), so every search pass is contiguous.
+  // Those streams gathered per site (CSR layout), so every search pass is contiguous.
   const streams: SiteStreams = { demand: new Float64Array(start[m]), low: new Float64Array(start[m]), high: new Float64Array(start[m]) };
   const fill = start.slice(0, m);
   for (let i = 0; i < n; i++) {
     if (outsideCost[i] === Infinity) continue;
-    const row = i * m;
-    for (let j = 0; j < m; j++) {
-      const stream = demand[i] * shares[row + j];
-      if (!(stream > 0)) continue;
-      const high = rangeHigh[i] - travelCost[row + j];
+    for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
+      const pair = pairs[k];
+      const j = pair - i * m;
+      const high = rangeHigh[i] - travelCost[pair];
       if (!(high >= emptyWait[j])) continue;
-      const k = fill[j]++;
-      streams.demand[k] = stream;
-      streams.low[k] = rangeLow[i] - travelCost[row + j];
-      streams.high[k] = high;
+      const at = fill[j]++;
+      streams.demand[at] = demand[i] * shares[pair];
+      streams.low[at] = rangeLow[i] - travelCost[pair];
+      streams.high[at] = high;
     }
   }
 
@@ -409,19 +412,17 @@ export function solveFixedShares(
     weight[j] = servedLow > servedHigh ? Math.min(1, Math.max(0, (target - servedHigh) / (servedLow - servedHigh))) : 0;
   }
 
-  // The flows, pair by pair in source order, from each site's final waits; sources the rule sends
-  // nowhere (no allowed site) balk, or, without an outside option, have no steady state.
+  // The flows, stream by stream in source order, from each site's final waits; sources the rule
+  // sends nowhere (no allowed site) balk, or, without an outside option, have no steady state.
   for (let i = 0; i < n; i++) {
     const row = i * m;
     const low = rangeLow[i];
     const high = rangeHigh[i];
     const free = outsideCost[i] !== Infinity;
-    let assigned = 0;
     let leaving = 0;
-    for (let j = 0; j < m; j++) {
-      assigned += shares[row + j];
+    for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
+      const j = pairs[k] - row;
       const stream = demand[i] * shares[row + j];
-      if (!(stream > 0)) continue;
       let staying: number;
       if (!free) staying = stream;
       else if (overloaded[j]) staying = 0; // patients with an outside option all leave an infinitely long queue
@@ -436,7 +437,7 @@ export function solveFixedShares(
       siteInflow[j] += staying;
     }
     balked[i] = leaving;
-    const unassigned = demand[i] * Math.max(0, 1 - assigned);
+    const unassigned = demand[i] * Math.max(0, 1 - assigned[i]);
     if (unassigned <= 1e-12 * Math.max(1, demand[i])) continue;
     if (!free) {
       converged = false;
@@ -450,7 +451,7 @@ export function solveFixedShares(
   }
   for (let j = 0; j < m; j++) if (!overloaded[j]) siteWait[j] = siteInflow[j] >= capacity[j] ? Infinity : sites[j].wait(siteInflow[j]);
 
-  const { totalCost, relativeGap } = fixedRuleCost(problem, shares, flow, siteWait);
+  const { totalCost, relativeGap } = streamsCost(problem, shares, flow, siteWait, { pairs, firstPair, assigned });
   return {
     rule,
     allocation: { flow, balked },
@@ -491,6 +492,46 @@ export function fixedRuleCost(
   flow: Float64Array,
   siteWait: Float64Array,
 ): { totalCost: number; relativeGap: number } {
+  return streamsCost(problem, shares, flow, siteWait, listStreams(problem.n, problem.m, problem.demand, shares));
+}
+
+/** The streams of a fixed rule: pairs with demand sent (row-major indices, in source order). */
+interface StreamList {
+  pairs: Int32Array;
+  /** Source i's streams are pairs[firstPair[i]] … pairs[firstPair[i + 1] − 1]. */
+  firstPair: Int32Array;
+  /** Σ_j shares of source i (1, or 0 when the rule sends it nowhere). */
+  assigned: Float64Array;
+}
+
+function listStreams(n: number, m: number, demand: Float64Array, shares: Float64Array): StreamList {
+  // Room for every pair; memory never written (most of it for `nearest`) is never touched.
+  const pairs = new Int32Array(n * m);
+  const firstPair = new Int32Array(n + 1);
+  const assigned = new Float64Array(n);
+  let count = 0;
+  for (let i = 0; i < n; i++) {
+    const row = i * m;
+    let total = 0;
+    for (let j = 0; j < m; j++) {
+      const share = shares[row + j];
+      total += share;
+      if (demand[i] * share > 0) pairs[count++] = row + j;
+    }
+    assigned[i] = total;
+    firstPair[i + 1] = count;
+  }
+  return { pairs, firstPair, assigned };
+}
+
+/** `fixedRuleCost` over a stream list. */
+function streamsCost(
+  problem: LineProblem,
+  shares: Float64Array,
+  flow: Float64Array,
+  siteWait: Float64Array,
+  { pairs, firstPair, assigned }: StreamList,
+): { totalCost: number; relativeGap: number } {
   const { n, m, demand, outsideCost, outsideSpread, travelCost } = problem;
   let actual = 0;
   let best = 0;
@@ -498,34 +539,31 @@ export function fixedRuleCost(
     const o = outsideCost[i];
     const s = outsideSpread[i];
     const row = i * m;
-    let assigned = 0;
     if (o === Infinity) {
       // No outside option: every patient stays, so the actual and the best cost are the same.
-      for (let j = 0; j < m; j++) {
-        assigned += shares[row + j];
-        const stream = demand[i] * shares[row + j];
-        if (stream <= 0) continue;
-        const cost = siteWait[j] + travelCost[row + j];
-        const staying = flow[row + j];
+      for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
+        const pair = pairs[k];
+        const stream = demand[i] * shares[pair];
+        const cost = siteWait[pair - row] + travelCost[pair];
+        const staying = flow[pair];
         actual += staying > 0 ? staying * cost : 0;
         best += stream * cost;
       }
     } else {
       // stayingShare and balkersCost written out (a national instance has millions of streams).
       const { low, high } = reservationRange(o, s);
-      for (let j = 0; j < m; j++) {
-        assigned += shares[row + j];
-        const stream = demand[i] * shares[row + j];
-        if (stream <= 0) continue;
-        const cost = siteWait[j] + travelCost[row + j];
-        const staying = flow[row + j];
+      for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
+        const pair = pairs[k];
+        const stream = demand[i] * shares[pair];
+        const cost = siteWait[pair - row] + travelCost[pair];
+        const staying = flow[pair];
         const leaving = Math.max(0, stream - staying);
         actual += (staying > 0 ? staying * cost : 0) + streamBalkersCost(leaving, stream, low, high, o, s);
         const optimalStaying = stream * (cost <= low ? 1 : cost >= high ? 0 : 1 - (cost - low) / (high - low));
         best += (optimalStaying > 0 ? optimalStaying * cost : 0) + streamBalkersCost(stream - optimalStaying, stream, low, high, o, s);
       }
     }
-    const unassigned = demand[i] * Math.max(0, 1 - assigned);
+    const unassigned = demand[i] * Math.max(0, 1 - assigned[i]);
     if (unassigned > 0 && o !== Infinity) {
       const cost = balkersCost(unassigned, unassigned, o, s);
       actual += cost;
