@@ -184,6 +184,11 @@ interface JsonLayout {
   flowsSeparator: Uint8Array;
   flowsClose: Uint8Array;
   siteKeys: Uint8Array[];
+  /**
+   * Compact output only: whether every site id is plain (its JSON text ASCII without commas, so
+   * commas alone locate the keys), else each id's JSON length and UTF-8 bytes beyond that.
+   */
+  compact: { plain: boolean; siteJsonLength: number[]; siteExtraBytes: number[] } | null;
 }
 
 function jsonLayout(gap: string, depth: number, siteIds: readonly string[]): JsonLayout {
@@ -203,6 +208,14 @@ function jsonLayout(gap: string, depth: number, siteIds: readonly string[]): Jso
     flowsSeparator: utf8(`,${line(4)}`),
     flowsClose: utf8(`${line(3)}}`),
     siteKeys: siteIds.map((id) => utf8(`${JSON.stringify(id)}${colon}`)),
+    compact:
+      gap === ""
+        ? {
+            plain: siteIds.every((id) => /^[\x20-\x7e]*$/.test(JSON.stringify(id)) && !id.includes(",")),
+            siteJsonLength: siteIds.map((id) => JSON.stringify(id).length),
+            siteExtraBytes: siteIds.map((id) => utf8(JSON.stringify(id)).length - JSON.stringify(id).length),
+          }
+        : null,
   };
 }
 
@@ -219,9 +232,13 @@ function assembleReport(
 ): { report: RuleReport; sourceBytes: Uint8Array | null } {
   if (solution.status === "infeasible") return { report: infeasibleReport(build, solution), sourceBytes: null };
   const writer = layout && build.problem.n > 0 ? new ByteWriter() : null;
-  // A practice's flows in text form: their values (for one JSON.stringify) and their sites' keys.
+  // A practice's flows in text form: their values (for one JSON.stringify) and their sites' keys;
+  // for compact output keys and values alternate in one array, with the keys' lengths beside.
   const flowValues: number[] = [];
   const flowKeys: Uint8Array[] = [];
+  const flowPairs: (string | number)[] = [];
+  const flowKeyLengths: number[] = [];
+  const flowKeyExtraBytes: number[] = [];
   const { problem, siteSpecs, urgentInflow, urgentDemand, urgentSite, standardWeeks } = build;
   const { n, m } = problem;
   const allocation = solution.allocation;
@@ -286,6 +303,9 @@ function assembleReport(
     const flows: Record<string, number> = {};
     flowValues.length = 0;
     flowKeys.length = 0;
+    flowPairs.length = 0;
+    flowKeyLengths.length = 0;
+    flowKeyExtraBytes.length = 0;
     let sourceServed = 0;
     let sourceWait = 0;
     let sourceKm = 0;
@@ -296,7 +316,13 @@ function assembleReport(
       const urgent = urgentSite[i] === j ? urgentDemand[i] : 0;
       const flow = routine + urgent;
       if (flow <= FLOW_REPORT_THRESHOLD) continue;
-      if (layout) {
+      if (layout?.compact) {
+        flowPairs.push(problem.siteIds[j], flow);
+        if (!layout.compact.plain) {
+          flowKeyLengths.push(layout.compact.siteJsonLength[j]);
+          flowKeyExtraBytes.push(layout.compact.siteExtraBytes[j]);
+        }
+      } else if (layout) {
         flowValues.push(flow);
         flowKeys.push(layout.siteKeys[j]);
       } else {
@@ -333,7 +359,11 @@ function assembleReport(
       text += layout.fieldsOpen;
       for (const [key, value] of Object.entries(row)) text += `${JSON.stringify(key)}${layout.colon}${JSON.stringify(value)}${layout.fieldsSeparator}`;
       writer.text(`${text}"flows"${layout.colon}`);
-      if (flowValues.length === 0) writer.text("{}");
+      if (flowValues.length === 0 && flowPairs.length === 0) writer.text("{}");
+      else if (layout.compact) {
+        const keys = layout.compact.plain ? null : { lengths: flowKeyLengths, extraBytes: flowKeyExtraBytes };
+        writer.compactObjectFromPairs(JSON.stringify(flowPairs), keys);
+      }
       else {
         // JSON numbers hold no commas, so the commas of this text are exactly the separators.
         const numbers = JSON.stringify(flowValues);
