@@ -170,6 +170,30 @@ describe("nearest picks the fewest km among allowed pairs", () => {
   });
 });
 
+describe("many streams meeting at one sharp threshold (one M/M/1 site)", () => {
+  // [derived] from PRODUCT.md's model, extending the Edelson & Hildebrand (1975) instance above
+  // (Econometrica 43(1):81–92; μ = 8/wk, sharp outside cost o = 1 wk): 20 practices of 1/wk each.
+  // Group A (10 practices, 0 km) would stay while the wait is below 1; group B (10 practices,
+  // 7.5 km at κ = 15, i.e. 0.5 wk of travel) while it is below 0.5. At a wait just above 0.5
+  // group A alone (10/wk) still exceeds W⁻¹(0.5) = 6.4 (x/(8(8 − x)) = 0.5), so the wait rises
+  // to A's threshold: x = W⁻¹(1) = 64/9, split evenly over A, and all of B balks. Total cost:
+  // served at 1 + A's balkers at 1 + B's at 1 = 20. The root search must find the threshold
+  // from many streams (the two sides' exact models meet there), not just from one.
+  const km = [...Array.from({ length: 10 }, () => [0]), ...Array.from({ length: 10 }, () => [7.5])];
+  const problem = lineProblem({ demand: Array(20).fill(1), outsideCost: Array(20).fill(1), km, kmPerWeek: 15, sites: [mmcSite(1, 8)] });
+  for (const [name, solve] of [["nearest", solveNearest], ["capacityShare", solveCapacityShare]] as const) {
+    it(`${name}: inflow 64/9 shared by group A, group B balks, total cost 20 (tolerance 1e-9)`, () => {
+      const result = solve(problem);
+      expect(result.diagnostics.converged).toBe(true);
+      expect(result.siteInflow[0]).toBeCloseTo(64 / 9, 9);
+      expect(result.siteWait[0]).toBeCloseTo(1, 9);
+      for (let i = 0; i < 10; i++) expect(result.allocation.flow[i]).toBeCloseTo(64 / 90, 9);
+      for (let i = 10; i < 20; i++) expect(result.allocation.balked[i]).toBeCloseTo(1, 12);
+      expect(result.totalCost).toBeCloseTo(20, 8);
+    });
+  }
+});
+
 describe("properties of the fixed rules on random instances", () => {
   // Balking equilibrium (Wardrop 1952, Proc. Inst. Civil Engineers 1(3):325–378, from memory,
   // applied to the stay-or-leave decision): a stream with patients staying costs no more than
@@ -213,6 +237,35 @@ describe("properties of the fixed rules on random instances", () => {
         }
       });
     }
+  }
+
+  // Many streams per site (as on a national instance, where each site receives thousands):
+  // the same equilibrium conditions, with sharp and spread outside options mixed.
+  for (const seed of [31, 32, 33]) {
+    it(`seed ${seed}, 300 practices × 5 sites, mixed outside options: capacity share's balking is in equilibrium`, () => {
+      const base = randomProblem(seed, 300, 5, { spread: true, captiveShare: 0.1 });
+      const problem = { ...base, outsideSpread: base.outsideSpread.map((s, i) => (i % 3 === 0 ? 0 : s)) };
+      const result = solveCapacityShare(problem);
+      expect(result.diagnostics.converged).toBe(true);
+      expect(result.diagnostics.relativeGap).toBeLessThan(1e-8);
+      const { n, m } = problem;
+      for (let j = 0; j < m; j++) {
+        let inflow = 0;
+        for (let i = 0; i < n; i++) {
+          const stream = problem.demand[i] * result.shares[i * m + j];
+          const staying = result.allocation.flow[i * m + j];
+          const cost = result.siteWait[j] + problem.travelCost[i * m + j];
+          const o = problem.outsideCost[i];
+          const s = problem.outsideSpread[i];
+          if (staying > 1e-9 * stream) expect(cost).toBeLessThanOrEqual(o * (1 + s) + 1e-7);
+          if (staying < stream * (1 - 1e-9)) expect(cost).toBeGreaterThanOrEqual(o * (1 - s) - 1e-7);
+          inflow += staying;
+        }
+        // Wardrop's condition at the site's own wait: the inflow is what its patients' choices give.
+        expect(result.siteInflow[j]).toBeCloseTo(inflow, 10);
+        expect(result.siteWait[j]).toBeCloseTo(problem.sites[j].wait(inflow), 10);
+      }
+    });
   }
 
   it("waits rise with demand under a fixed rule (Lee & Cohen 1983, Wq increasing in λ, from memory)", () => {
