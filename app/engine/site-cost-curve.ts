@@ -25,8 +25,7 @@ export interface SiteCostCurve {
 /** The marginal cost x ↦ W(x) + x·W'(x) of a site, with slope 2W' + x·W''. */
 export function marginalCostCurve(site: SiteWaitModel): SiteCostCurve {
   const curvature = (x: number): number => {
-    const withCurvature = site as SiteWaitModel & { waitCurvature?: (x: number) => number };
-    if (withCurvature.waitCurvature) return withCurvature.waitCurvature(x);
+    if (site.waitCurvature) return site.waitCurvature(x);
     // Central difference of the exact slope; the step shrinks with the distance to capacity,
     // where W'' grows like (capacity − x)^-3.
     const room = site.capacity - x;

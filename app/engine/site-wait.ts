@@ -149,6 +149,16 @@ export function createSiteWaitModel(spec: SiteQueueSpec, urgentInflow = 0): Site
       }
       return total;
     },
+    waitCurvature(x: number): number {
+      const routine = checkInflow(x, "routine inflow");
+      if (routine >= capacity) return Infinity;
+      let total = 0;
+      for (const queue of queues) {
+        const curvature = routineStageWaitCurvature(queue, urgentInflow * queue.visits, routine * queue.visits);
+        total += queue.visits * queue.visits * queue.visits * queue.variabilityFactor * curvature;
+      }
+      return total;
+    },
   };
 }
 
@@ -196,6 +206,51 @@ function routineStageWaitSlope(queue: StageQueue, urgent: number, routine: numbe
   const waitProbabilitySlope = (spareShare * blockingSlope + (blocking * (1 - blocking)) / servers) / (denominator * denominator);
   const scale = 1 / (stageCapacity * (1 - urgent / stageCapacity));
   return scale * (waitProbabilitySlope / (ratePerServer * spareShare) + waitProbability / (stageCapacity * spareShare * spareShare));
+}
+
+/**
+ * d²/d(routine)² of `routineStageWait`. With a = λ/μ, ρ = a/c, B Erlang B, D = 1 − ρ + ρB and
+ * P = B/D (Erlang C), W = s·P/(1 − ρ) for s = 1/(cμ − u):
+ *   B' = B(c/a − 1 + B), B'' = B'(c/a − 1 + B) + B(B' − c/a²)   (from dB/da above),
+ *   D' = (B − 1)/c + ρB',  D'' = 2B'/c + ρB'',  P' = (B'D − BD')/D²,  P'' = (B''D − BD'')/D² − 2D'P'/D,
+ *   W'' = s·[P''/(μ²(1 − ρ)) + 2P'/(μ·cμ·(1 − ρ)²) + 2P/((cμ)²(1 − ρ)³)]   (derivatives in λ).
+ * At a = 0, B' and B'' take their limits (B ≈ a^c/c!): B' = 1 for c = 1, else 0; B'' = −2 for
+ * c = 1, 1 for c = 2, else 0. Checked against differences of the slope in the tests.
+ */
+function routineStageWaitCurvature(queue: StageQueue, urgent: number, routine: number): number {
+  const { servers, ratePerServer } = queue;
+  const stageCapacity = servers * ratePerServer;
+  const total = urgent + routine;
+  if (total >= stageCapacity) return Infinity;
+  const load = total / ratePerServer;
+  const utilisation = total / stageCapacity;
+  const spareShare = 1 - utilisation;
+  const blocking = blockingOf(servers, load);
+  let blockingSlope: number;
+  let blockingCurvature: number;
+  if (load === 0) {
+    blockingSlope = servers === 1 ? 1 : 0;
+    blockingCurvature = servers === 1 ? -2 : servers === 2 ? 1 : 0;
+  } else {
+    const factor = servers / load - 1 + blocking;
+    blockingSlope = blocking * factor;
+    blockingCurvature = blockingSlope * factor + blocking * (blockingSlope - servers / (load * load));
+  }
+  const denominator = spareShare + utilisation * blocking;
+  const denominatorSlope = (blocking - 1) / servers + utilisation * blockingSlope;
+  const denominatorCurvature = (2 * blockingSlope) / servers + utilisation * blockingCurvature;
+  const waitProbability = blocking / denominator;
+  const waitProbabilitySlope = (blockingSlope * denominator - blocking * denominatorSlope) / (denominator * denominator);
+  const waitProbabilityCurvature =
+    (blockingCurvature * denominator - blocking * denominatorCurvature) / (denominator * denominator) -
+    (2 * denominatorSlope * waitProbabilitySlope) / denominator;
+  const scale = 1 / (stageCapacity * (1 - urgent / stageCapacity));
+  return (
+    scale *
+    (waitProbabilityCurvature / (ratePerServer * ratePerServer * spareShare) +
+      (2 * waitProbabilitySlope) / (ratePerServer * stageCapacity * spareShare * spareShare) +
+      (2 * waitProbability) / (stageCapacity * stageCapacity * spareShare * spareShare * spareShare))
+  );
 }
 
 export interface SiteMetrics {

@@ -45,6 +45,36 @@ describe("createSiteWaitModel", () => {
     expect(model.waitSlope(7)).toBe(Infinity);
   });
 
+  it("its closed-form curvature agrees with differences of its slope (one queue, urgent, cv, pathways)", () => {
+    // Cobham's (1954) routine wait differentiated twice in closed form (site-wait.ts); the check is
+    // a fourth-order central difference of the exact slope, accurate to ~1e-8 relative here.
+    const specs: Array<[SiteQueueSpec, number]> = [
+      [{ teams: 1, ratePerTeam: 3 }, 0],
+      [{ teams: 2, ratePerTeam: 1 }, 0.5],
+      [{ teams: 3, ratePerTeam: 2, serviceCv: 0.6 }, 0],
+      [{ teams: 12, ratePerTeam: 0.8 }, 1.5],
+      [{ teams: 40, ratePerTeam: 2 }, 10],
+      [pathwaySite, 0],
+      [pathwaySite, 0.8],
+    ];
+    for (const [spec, urgent] of specs) {
+      const model = createSiteWaitModel(spec, urgent);
+      for (const share of [0.05, 0.3, 0.7, 0.95]) {
+        const x = share * model.capacity;
+        const h = 1e-3 * Math.min(x, model.capacity - x);
+        const difference =
+          (-model.waitSlope(x + 2 * h) + 8 * model.waitSlope(x + h) - 8 * model.waitSlope(x - h) + model.waitSlope(x - 2 * h)) / (12 * h);
+        const curvature = model.waitCurvature?.(x) ?? NaN;
+        expect(Math.abs(curvature - difference)).toBeLessThanOrEqual(1e-7 * Math.abs(difference) + 1e-12);
+      }
+      // At no load: the limits (B ≈ a^c/c!), compared with a one-sided difference from x = 0.
+      const h = 1e-6 * model.capacity;
+      const oneSided = (-3 * model.waitSlope(0) + 4 * model.waitSlope(h) - model.waitSlope(2 * h)) / (2 * h);
+      expect(Math.abs((model.waitCurvature?.(0) ?? NaN) - oneSided)).toBeLessThanOrEqual(1e-4 * Math.abs(oneSided) + 1e-9);
+    }
+    expect(createSiteWaitModel({ teams: 2, ratePerTeam: 1 }).waitCurvature?.(2)).toBe(Infinity);
+  });
+
   it("behind urgent referrals gives the Cobham (1954) routine wait: c = 2, μ = 1, u = 0.5, x = 1 → 12/7", () => {
     // Cobham (1954) "Priority assignment in waiting line problems", JORSA 2(1):70–76.
     const model = createSiteWaitModel({ teams: 2, ratePerTeam: 1 }, 0.5);
