@@ -139,12 +139,18 @@ function benchCommandLine(): void {
     return { ms, code: child.status, usage };
   };
   const baseline = run(invalid);
-  const whole = run(file);
+  // Several runs: the machine is shared, and one run can be a second off either way.
+  const runs = Number(process.env.BENCH_CLI_RUNS ?? 3);
+  const wholes = Array.from({ length: runs }, () => run(file));
   rmSync(directory, { recursive: true, force: true });
   const cell = (value: number | undefined, digits = 0) => (value === undefined ? "n/a" : value.toFixed(digits));
-  console.log(`\n## npm run solve on the national file (${NATIONAL.sources}×${NATIONAL.sites}, exit ${whole.code})`);
+  const median = [...wholes].sort((a, b) => a.ms - b.ms)[Math.floor(runs / 2)];
+  console.log(`\n## npm run solve on the national file (${NATIONAL.sources}×${NATIONAL.sites}, exit ${wholes.map((whole) => whole.code).join(", ")})`);
   console.log("| command | wall ms | cpu ms (all threads) | peak RSS MB |\n| --- | ---: | ---: | ---: |");
-  console.log(`| whole solve (target < 3000 ms) | ${whole.ms.toFixed(0)} | ${cell(whole.usage?.cpuMs)} | ${cell(whole.usage?.rssMb)} |`);
+  wholes.forEach((whole, index) => {
+    console.log(`| whole solve, run ${index + 1} of ${runs} (target < 3000 ms) | ${whole.ms.toFixed(0)} | ${cell(whole.usage?.cpuMs)} | ${cell(whole.usage?.rssMb)} |`);
+  });
+  console.log(`| whole solve, median of ${runs} | ${median.ms.toFixed(0)} | ${cell(median.usage?.cpuMs)} | ${cell(median.usage?.rssMb)} |`);
   console.log(`| baseline: invalid file, start-up only | ${baseline.ms.toFixed(0)} | ${cell(baseline.usage?.cpuMs)} | ${cell(baseline.usage?.rssMb)} |`);
 }
 
