@@ -15,9 +15,9 @@ import { readFileSync } from "node:fs";
 import { lineDistances } from "./build-problem";
 import { NoSteadyStateError, type RuleKey, ScenarioInputError } from "./problem";
 import { type RenderedRuleReport, resultJsonChunks, solveScenarioAsJson } from "./result-json";
-import { sharedFloat64Array, startRuleThread } from "./rule-thread";
+import { ruleQueue, sharedFloat64Array, solveOwnAndQueued, startRuleThread } from "./rule-thread";
 import { parseScenario } from "./scenario";
-import { mergeScenarioResults, rulesToRun, type ScenarioResult } from "./solve-scenario";
+import { mergeScenarioResults, RULE_ORDER, rulesToRun, type ScenarioResult } from "./solve-scenario";
 
 const USAGE = "Usage: npm run solve -- FILE.json [--compact]";
 
@@ -33,10 +33,14 @@ function fail(code: number, message: string): number {
  */
 const PARALLEL_PAIRS = Number(process.env.EQUILIBRA_SOLVE_PARALLEL_PAIRS ?? 200_000);
 /**
- * The rules the second thread takes: about half the work (choice ≈ optimum; nearest is cheap;
- * capacityShare's report, with every practice–site flow, is the largest text to write).
+ * Each thread's own heavy rule, solved first (choice and optimum take about as long); the other
+ * rules are shared out as the threads become free, in this order — the longest first, so that
+ * the two threads end close together (capacityShare's report, with every practice–site flow, is
+ * the largest text to write).
  */
-const SECOND_THREAD_RULES: readonly RuleKey[] = ["choice", "nearest", "plan"];
+const MAIN_THREAD_RULES: readonly RuleKey[] = ["optimum"];
+const SECOND_THREAD_RULES: readonly RuleKey[] = ["choice"];
+const SHARED_RULE_ORDER: readonly RuleKey[] = ["choiceLogit", "plan", "capacityShare", "nearest"];
 
 async function main(args: readonly string[]): Promise<number> {
   const compact = args.includes("--compact");
@@ -61,8 +65,8 @@ async function main(args: readonly string[]): Promise<number> {
   }
 
   const gap = compact ? "" : "  ";
-  // A large scenario: half the rules on a second core. The worker starts now, so that its
-  // start-up overlaps the checks below; it is stopped unused if the scenario turns out small or bad.
+  // A large scenario: the rules shared between two cores. The worker starts now, so that its
+  // start-up overlaps the checks below; it is stopped if the scenario turns out to be bad.
   const large = (json as { sources?: unknown[]; providers?: unknown[] } | null);
   const pairs = Array.isArray(large?.sources) && Array.isArray(large?.providers) ? large.sources.length * large.providers.length : 0;
   const thread = pairs >= PARALLEL_PAIRS ? startRuleThread() : null;
@@ -70,15 +74,18 @@ async function main(args: readonly string[]): Promise<number> {
     const scenario = parseScenario(json);
     const rules = rulesToRun(scenario);
     let result: ScenarioResult<RenderedRuleReport>;
-    const threadRules = rules.filter((rule) => SECOND_THREAD_RULES.includes(rule));
-    if (thread && threadRules.length > 0 && threadRules.length < rules.length) {
+    if (thread) {
       // Road km once, in memory both threads read; the worker gets the checked scenario.
       const distances = lineDistances(scenario, sharedFloat64Array);
-      thread.send({ scenario, distances, rules: threadRules, gap });
-      const own = solveScenarioAsJson(scenario, { rules: rules.filter((rule) => !threadRules.includes(rule)), distances }, gap);
-      result = mergeScenarioResults([own, await thread.result]);
+      const shared = [...SHARED_RULE_ORDER, ...RULE_ORDER.filter((rule) => !SHARED_RULE_ORDER.includes(rule))].filter(
+        (rule) => rules.includes(rule) && !MAIN_THREAD_RULES.includes(rule) && !SECOND_THREAD_RULES.includes(rule),
+      );
+      const queue = ruleQueue(shared);
+      thread.send({ scenario, distances, rules: rules.filter((rule) => SECOND_THREAD_RULES.includes(rule)), queue, gap });
+      const own = solveOwnAndQueued(scenario, distances, rules.filter((rule) => MAIN_THREAD_RULES.includes(rule)), queue, gap);
+      const other = await thread.result;
+      result = mergeScenarioResults([own, other].filter((part) => part !== null));
     } else {
-      thread?.stop();
       result = solveScenarioAsJson(scenario, {}, gap);
     }
     for (const chunk of resultJsonChunks(result, gap)) process.stdout.write(chunk);

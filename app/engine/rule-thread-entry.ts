@@ -1,15 +1,17 @@
-/** Worker-thread side of `rule-thread.ts`: solve the rules asked for, write their reports as JSON text, answer once. */
+/**
+ * Worker-thread side of `rule-thread.ts`: solve the worker's own rules, then rules from the
+ * shared queue, write their reports as JSON text, answer once.
+ */
 import { parentPort } from "node:worker_threads";
-import { solveScenarioAsJson } from "./result-json";
-import type { RuleThreadReply, RuleThreadRequest } from "./rule-thread";
+import { type RuleThreadReply, type RuleThreadRequest, solveOwnAndQueued } from "./rule-thread";
 
 parentPort?.once("message", (request: RuleThreadRequest) => {
   let reply: RuleThreadReply;
   // The reports' bytes are handed over, not copied.
   const transfer: ArrayBuffer[] = [];
   try {
-    const result = solveScenarioAsJson(request.scenario, { rules: request.rules, distances: request.distances }, request.gap);
-    for (const lines of [result.lines, ...(result.periods ?? []).map((period) => period.lines)]) {
+    const result = solveOwnAndQueued(request.scenario, request.distances, request.rules, request.queue, request.gap);
+    for (const lines of result ? [result.lines, ...(result.periods ?? []).map((period) => period.lines)] : []) {
       for (const line of Object.values(lines)) {
         for (const report of Object.values(line.rules)) for (const chunk of report?.json ?? []) if (!transfer.includes(chunk.buffer as ArrayBuffer)) transfer.push(chunk.buffer as ArrayBuffer);
       }

@@ -3,6 +3,11 @@
  * thread solves the others, so a large scenario uses two cores. The worker runs
  * `rule-thread-entry.ts` from source (`typescript-worker.ts`).
  *
+ * Which thread solves what: each starts with its own heavy rule (the calling thread `optimum`,
+ * the worker `choice`), then both take the remaining rules from one shared queue, heaviest first,
+ * whichever is free first (`takeRule`: one counter in shared memory). Static halves left one core
+ * idle for up to a second, as the two heavy rules' times vary by instance and machine load.
+ *
  * The worker receives what the caller already has — the validated scenario and the road km of
  * every line (in shared memory, not copied) — so nothing is validated or computed twice, and it
  * answers with its rules' reports already written as JSON text (`result-json.ts`): cloning a
@@ -11,22 +16,58 @@
  */
 import type { LineDistances } from "./build-problem";
 import type { RuleKey } from "./problem";
-import type { RenderedRuleReport } from "./result-json";
+import { type RenderedRuleReport, solveScenarioAsJson } from "./result-json";
 import type { Scenario } from "./scenario";
-import type { ScenarioResult } from "./solve-scenario";
+import { mergeScenarioResults, type ScenarioResult } from "./solve-scenario";
 import { startTypeScriptWorker } from "./typescript-worker";
+
+/** Rules either thread may solve, in the order they are taken, and the index of the next (shared memory). */
+export interface RuleQueue {
+  rules: RuleKey[];
+  next: Int32Array;
+}
+
+export function ruleQueue(rules: RuleKey[]): RuleQueue {
+  return { rules, next: new Int32Array(new SharedArrayBuffer(Int32Array.BYTES_PER_ELEMENT)) };
+}
+
+/** The next rule nobody has taken, or null; each rule goes to exactly one thread (an atomic add). */
+export function takeRule(queue: RuleQueue): RuleKey | null {
+  const index = Atomics.add(queue.next, 0, 1);
+  return index < queue.rules.length ? queue.rules[index] : null;
+}
+
+/**
+ * What one thread does: its own rules first, then rules from the queue until it is empty. The
+ * reports are written as JSON text (`gap` as JSON.stringify's). Null when it solved nothing.
+ */
+export function solveOwnAndQueued(
+  scenario: Scenario,
+  distances: LineDistances,
+  own: RuleKey[],
+  queue: RuleQueue,
+  gap: string,
+): ScenarioResult<RenderedRuleReport> | null {
+  const parts: ScenarioResult<RenderedRuleReport>[] = [];
+  if (own.length > 0) parts.push(solveScenarioAsJson(scenario, { rules: own, distances }, gap));
+  for (let rule = takeRule(queue); rule !== null; rule = takeRule(queue)) parts.push(solveScenarioAsJson(scenario, { rules: [rule], distances }, gap));
+  return parts.length > 0 ? mergeScenarioResults(parts) : null;
+}
 
 export interface RuleThreadRequest {
   /** The scenario as `parseScenario` returned it (already checked). */
   scenario: Scenario;
   /** Road km per line (`lineDistances`), best in shared memory so that posting does not copy them. */
   distances: LineDistances;
+  /** The worker's own rules, solved before it takes any from the queue. */
   rules: RuleKey[];
+  /** Rules shared with the calling thread (its counter is in shared memory, so both see each take). */
+  queue: RuleQueue;
   /** JSON.stringify's gap for the reports' text ("" for compact output). */
   gap: string;
 }
 
-export type RuleThreadReply = { ok: true; result: ScenarioResult<RenderedRuleReport> } | { ok: false; message: string };
+export type RuleThreadReply = { ok: true; result: ScenarioResult<RenderedRuleReport> | null } | { ok: false; message: string };
 
 /** Road km arrays in memory both threads can read (allocator for `lineDistances`). */
 export function sharedFloat64Array(length: number): Float64Array {
@@ -39,10 +80,14 @@ export function sharedFloat64Array(length: number): Float64Array {
  * the worker fails; `stop` ends the worker early (when the caller's own part failed). The worker
  * exits after answering.
  */
-export function startRuleThread(): { send: (request: RuleThreadRequest) => void; result: Promise<ScenarioResult<RenderedRuleReport>>; stop: () => void } {
+export function startRuleThread(): {
+  send: (request: RuleThreadRequest) => void;
+  result: Promise<ScenarioResult<RenderedRuleReport> | null>;
+  stop: () => void;
+} {
   const entry = new URL("./rule-thread-entry.ts", import.meta.url).href;
   const worker = startTypeScriptWorker(entry);
-  const result = new Promise<ScenarioResult<RenderedRuleReport>>((resolve, reject) => {
+  const result = new Promise<ScenarioResult<RenderedRuleReport> | null>((resolve, reject) => {
     worker.once("message", (reply: RuleThreadReply) => {
       void worker.terminate();
       if (reply.ok) resolve(reply.result);
