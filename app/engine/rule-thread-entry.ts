@@ -3,7 +3,8 @@
  * shared queue, write their reports as JSON text, answer once.
  */
 import { parentPort } from "node:worker_threads";
-import { type RuleThreadReply, type RuleThreadRequest, solveOwnAndQueued } from "./rule-thread";
+import { solveOwnAndQueued } from "./rule-queue";
+import type { RuleThreadReply, RuleThreadRequest } from "./rule-thread";
 
 parentPort?.once("message", (request: RuleThreadRequest) => {
   let reply: RuleThreadReply;

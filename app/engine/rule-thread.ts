@@ -5,8 +5,8 @@
  *
  * Which thread solves what: each starts with its own heavy rule (the calling thread `optimum`,
  * the worker `choice`), then both take the remaining rules from one shared queue, heaviest first,
- * whichever is free first (`takeRule`: one counter in shared memory). Static halves left one core
- * idle for up to a second, as the two heavy rules' times vary by instance and machine load.
+ * whichever is free first (`rule-queue.ts`: one counter in shared memory). Static halves left one
+ * core idle for up to a second, as the two heavy rules' times vary by instance and machine load.
  *
  * The worker receives what the caller already has — the validated scenario and the road km of
  * every line (in shared memory, not copied) — so nothing is validated or computed twice, and it
@@ -16,43 +16,12 @@
  */
 import type { LineDistances } from "./build-problem";
 import type { RuleKey } from "./problem";
-import { type RenderedRuleReport, solveScenarioAsJson } from "./result-json";
+import type { RenderedRuleReport } from "./result-json";
+import type { RuleQueue } from "./rule-queue";
 import type { Scenario } from "./scenario";
-import { mergeScenarioResults, type ScenarioResult } from "./solve-scenario";
+import type { ScenarioResult } from "./solve-scenario";
+// Only type imports besides this one: the command line starts the worker before it loads the engine.
 import { startTypeScriptWorker } from "./typescript-worker";
-
-/** Rules either thread may solve, in the order they are taken, and the index of the next (shared memory). */
-export interface RuleQueue {
-  rules: RuleKey[];
-  next: Int32Array;
-}
-
-export function ruleQueue(rules: RuleKey[]): RuleQueue {
-  return { rules, next: new Int32Array(new SharedArrayBuffer(Int32Array.BYTES_PER_ELEMENT)) };
-}
-
-/** The next rule nobody has taken, or null; each rule goes to exactly one thread (an atomic add). */
-export function takeRule(queue: RuleQueue): RuleKey | null {
-  const index = Atomics.add(queue.next, 0, 1);
-  return index < queue.rules.length ? queue.rules[index] : null;
-}
-
-/**
- * What one thread does: its own rules first, then rules from the queue until it is empty. The
- * reports are written as JSON text (`gap` as JSON.stringify's). Null when it solved nothing.
- */
-export function solveOwnAndQueued(
-  scenario: Scenario,
-  distances: LineDistances,
-  own: RuleKey[],
-  queue: RuleQueue,
-  gap: string,
-): ScenarioResult<RenderedRuleReport> | null {
-  const parts: ScenarioResult<RenderedRuleReport>[] = [];
-  if (own.length > 0) parts.push(solveScenarioAsJson(scenario, { rules: own, distances }, gap));
-  for (let rule = takeRule(queue); rule !== null; rule = takeRule(queue)) parts.push(solveScenarioAsJson(scenario, { rules: [rule], distances }, gap));
-  return parts.length > 0 ? mergeScenarioResults(parts) : null;
-}
 
 export interface RuleThreadRequest {
   /** The scenario as `parseScenario` returned it (already checked). */
