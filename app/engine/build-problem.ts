@@ -192,7 +192,7 @@ export function lineDistances(scenario: Scenario, allocate: (length: number) => 
 }
 
 /** The sources with demand for a line and the providers offering it (indices in the scenario). */
-function lineMembers(scenario: Scenario, lineId: string): { sources: number[]; sites: number[] } {
+export function lineMembers(scenario: Scenario, lineId: string): { sources: number[]; sites: number[] } {
   const sites: number[] = [];
   scenario.providers.forEach((provider, index) => {
     if (provider.lines[lineId]) sites.push(index);

@@ -14,7 +14,7 @@
 import { readFileSync } from "node:fs";
 import { NoSteadyStateError, type RuleKey, ScenarioInputError } from "./problem";
 import type { RenderedRuleReport } from "./result-json";
-import { sharedFloat64Array, startRuleThread } from "./rule-thread";
+import { startRuleThread } from "./rule-thread";
 import type { ScenarioResult } from "./solve-scenario";
 
 /**
@@ -22,14 +22,14 @@ import type { ScenarioResult } from "./solve-scenario";
  * TypeScript loader) then overlaps the worker's own start-up instead of delaying it.
  */
 async function loadEngine() {
-  const [build, json, queue, scenario, solve] = await Promise.all([
-    import("./build-problem"),
+  const [json, queue, scenario, distances, solve] = await Promise.all([
     import("./result-json"),
     import("./rule-queue"),
     import("./scenario"),
+    import("./shared-distances"),
     import("./solve-scenario"),
   ]);
-  return { ...build, ...json, ...queue, ...scenario, ...solve };
+  return { ...json, ...queue, ...scenario, ...distances, ...solve };
 }
 
 const USAGE = "Usage: npm run solve -- FILE.json [--compact]";
@@ -83,20 +83,31 @@ async function main(args: readonly string[]): Promise<number> {
   const large = (json as { sources?: unknown[]; providers?: unknown[] } | null);
   const pairs = Array.isArray(large?.sources) && Array.isArray(large?.providers) ? large.sources.length * large.providers.length : 0;
   const thread = pairs >= PARALLEL_PAIRS ? startRuleThread() : null;
-  const { lineDistances, mergeScenarioResults, parseScenario, RULE_ORDER, resultJsonChunks, ruleQueue, rulesToRun, solveOwnAndQueued, solveScenarioAsJson } =
-    await loadEngine();
+  const {
+    computeSharedDistances,
+    distanceWork,
+    mergeScenarioResults,
+    parseScenario,
+    RULE_ORDER,
+    resultJsonChunks,
+    ruleQueue,
+    rulesToRun,
+    solveOwnAndQueued,
+    solveScenarioAsJson,
+  } = await loadEngine();
   try {
     const scenario = parseScenario(json);
     const rules = rulesToRun(scenario);
     let result: ScenarioResult<RenderedRuleReport>;
     if (thread) {
-      // Road km once, in memory both threads read; the worker gets the checked scenario.
-      const distances = lineDistances(scenario, sharedFloat64Array);
+      // The worker gets the checked scenario at once; both threads compute the road km together.
+      const work = distanceWork(scenario);
       const shared = [...SHARED_RULE_ORDER, ...RULE_ORDER.filter((rule) => !SHARED_RULE_ORDER.includes(rule))].filter(
         (rule) => rules.includes(rule) && !MAIN_THREAD_RULES.includes(rule) && !SECOND_THREAD_RULES.includes(rule),
       );
       const queue = ruleQueue(shared);
-      thread.send({ scenario, distances, rules: rules.filter((rule) => SECOND_THREAD_RULES.includes(rule)), queue, gap });
+      thread.send({ scenario, distances: work, rules: rules.filter((rule) => SECOND_THREAD_RULES.includes(rule)), queue, gap });
+      const distances = computeSharedDistances(scenario, work);
       const own = solveOwnAndQueued(scenario, distances, rules.filter((rule) => MAIN_THREAD_RULES.includes(rule)), queue, gap);
       const other = await thread.result;
       result = mergeScenarioResults([own, other].filter((part) => part !== null));

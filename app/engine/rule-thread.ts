@@ -8,17 +8,17 @@
  * whichever is free first (`rule-queue.ts`: one counter in shared memory). Static halves left one
  * core idle for up to a second, as the two heavy rules' times vary by instance and machine load.
  *
- * The worker receives what the caller already has — the validated scenario and the road km of
- * every line (in shared memory, not copied) — so nothing is validated or computed twice, and it
+ * The worker receives the validated scenario and computes the road km of every line together with
+ * the caller, in shared memory (not copied) — so nothing is validated or computed twice — and it
  * answers with its rules' reports already written as JSON text (`result-json.ts`): cloning a
  * text is far cheaper than cloning millions of small objects, and the writing is done on its core.
  * Results of the two threads are joined by `mergeScenarioResults`.
  */
-import type { LineDistances } from "./build-problem";
 import type { RuleKey } from "./problem";
 import type { RenderedRuleReport } from "./result-json";
 import type { RuleQueue } from "./rule-queue";
 import type { Scenario } from "./scenario";
+import type { DistanceWork } from "./shared-distances";
 import type { ScenarioResult } from "./solve-scenario";
 // Only type imports besides this one: the command line starts the worker before it loads the engine.
 import { startTypeScriptWorker } from "./typescript-worker";
@@ -26,8 +26,8 @@ import { startTypeScriptWorker } from "./typescript-worker";
 export interface RuleThreadRequest {
   /** The scenario as `parseScenario` returned it (already checked). */
   scenario: Scenario;
-  /** Road km per line (`lineDistances`), best in shared memory so that posting does not copy them. */
-  distances: LineDistances;
+  /** Road km per line, computed by both threads together in shared memory (`shared-distances.ts`). */
+  distances: DistanceWork;
   /** The worker's own rules, solved before it takes any from the queue. */
   rules: RuleKey[];
   /** Rules shared with the calling thread (its counter is in shared memory, so both see each take). */
@@ -37,11 +37,6 @@ export interface RuleThreadRequest {
 }
 
 export type RuleThreadReply = { ok: true; result: ScenarioResult<RenderedRuleReport> | null } | { ok: false; message: string };
-
-/** Road km arrays in memory both threads can read (allocator for `lineDistances`). */
-export function sharedFloat64Array(length: number): Float64Array {
-  return new Float64Array(new SharedArrayBuffer(length * Float64Array.BYTES_PER_ELEMENT));
-}
 
 /**
  * Starts the worker at once (its start-up overlaps the caller's own work) and posts the request
