@@ -37,7 +37,9 @@ export function solveOwnAndQueued(
   gap: string,
 ): ScenarioResult<RenderedRuleReport> | null {
   const parts: ScenarioResult<RenderedRuleReport>[] = [];
-  if (own.length > 0) parts.push(solveScenarioAsJson(scenario, { rules: own, distances }, gap));
-  for (let rule = takeRule(queue); rule !== null; rule = takeRule(queue)) parts.push(solveScenarioAsJson(scenario, { rules: [rule], distances }, gap));
+  // One set of problems for all the calls (building one costs ~0.1 s on a national instance).
+  const builds = new Map();
+  if (own.length > 0) parts.push(solveScenarioAsJson(scenario, { rules: own, distances, builds }, gap));
+  for (let rule = takeRule(queue); rule !== null; rule = takeRule(queue)) parts.push(solveScenarioAsJson(scenario, { rules: [rule], distances, builds }, gap));
   return parts.length > 0 ? mergeScenarioResults(parts) : null;
 }

@@ -39,6 +39,23 @@ export interface SolveScenarioOptions {
   periods?: boolean;
   /** Road km per line already computed (`lineDistances`); filled here when missing, and shared by the periods. */
   distances?: LineDistances;
+  /**
+   * Problems already built for this scenario, by period id ("" for the scenario as given); filled
+   * here when missing. Solving the rules one call at a time (the command line's threads) then
+   * builds each problem once, as a single call for all rules does.
+   */
+  builds?: Map<string, LineBuild[]>;
+}
+
+/** The cached problems of a period (or of the scenario as given), built when missing. */
+function cachedBuilds(scenario: Scenario, period: ScenarioPeriod | undefined, options: SolveScenarioOptions, distances: LineDistances): LineBuild[] {
+  const key = period ? `period:${period.id}` : "";
+  let builds = options.builds?.get(key);
+  if (!builds) {
+    builds = buildLineProblems(scenario, period, distances);
+    options.builds?.set(key, builds);
+  }
+  return builds;
 }
 
 /** What merging results reads from a rule's report (`mergeScenarioResults`): its total cost and warnings. */
@@ -120,7 +137,7 @@ export function solveScenario(scenario: Scenario, options: SolveScenarioOptions 
 export function solveScenarioWith<R extends RuleSummary>(scenario: Scenario, options: SolveScenarioOptions, reporter: RuleReporter<R>): ScenarioResult<R> {
   const rules = rulesToRun(scenario, options.rules);
   const distances = options.distances ?? new Map();
-  const builds = buildLineProblems(scenario, undefined, distances);
+  const builds = cachedBuilds(scenario, undefined, options, distances);
   const shortfalls = builds.flatMap((build) => build.shortfalls);
   if (shortfalls.length > 0) throw new NoSteadyStateError(shortfalls);
 
@@ -134,7 +151,7 @@ export function solveScenarioWith<R extends RuleSummary>(scenario: Scenario, opt
     // Each period starts from the previous one's solution (the first from the stationary solve):
     // consecutive periods differ by a few percent, so the solvers start close to the answer.
     for (const period of scenario.periods) {
-      const report = solvePeriod(scenario, period, rules, warm, distances, (build, solution) =>
+      const report = solvePeriod(scenario, period, rules, warm, cachedBuilds(scenario, period, options, distances), (build, solution) =>
         reporter(scenario, build, solution, RULE_REPORT_DEPTH.period),
       );
       periods.push(report);
@@ -166,10 +183,9 @@ function solvePeriod<R extends RuleSummary>(
   period: ScenarioPeriod,
   rules: RuleKey[],
   warm: WarmStarts,
-  distances: LineDistances,
+  builds: LineBuild[],
   report: (build: LineBuild, solution: RuleSolution) => R,
 ): PeriodReport<R> {
-  const builds = buildLineProblems(scenario, period, distances);
   const solvable = builds.filter((build) => build.shortfalls.length === 0);
   const lines = solveLines(scenario, solvable, rules, warm, report);
   const ordered: Record<string, LineReport<R>> = {};

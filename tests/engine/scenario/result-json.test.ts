@@ -53,11 +53,13 @@ describe("the result written in parts is JSON.stringify's text", () => {
       });
     }
     for (const gap of ["", "  "]) {
-      it(`${name}, ${gap ? "indented" : "compact"}: rules solved in two parts (shared distances) and merged`, () => {
+      it(`${name}, ${gap ? "indented" : "compact"}: rules solved in two parts (shared distances and problems) and merged`, () => {
         const rules = rulesToRun(scenario);
         const distances = lineDistances(scenario);
+        // Problems built by the first part (periods included) and reused by the second, as each command-line thread does.
+        const builds = new Map();
         const first = rules.filter((_, index) => index % 2 === 0);
-        const parts = [first, rules.filter((rule) => !first.includes(rule))].map((part) => solveScenarioAsJson(scenario, { rules: part, distances }, gap));
+        const parts = [first, rules.filter((rule) => !first.includes(rule))].map((part) => solveScenarioAsJson(scenario, { rules: part, distances, builds }, gap));
         const text = joined(resultJsonChunks(mergeScenarioResults(parts), gap));
         expect(text).toBe(JSON.stringify(whole, null, gap));
       });
