@@ -239,6 +239,7 @@ function assembleReport(
   const flowPairs: (string | number)[] = [];
   const flowKeyLengths: number[] = [];
   const flowKeyExtraBytes: number[] = [];
+  let rowKeys: string[] | undefined;
   const { problem, siteSpecs, urgentInflow, urgentDemand, urgentSite, standardWeeks } = build;
   const { n, m } = problem;
   const allocation = solution.allocation;
@@ -355,23 +356,28 @@ function assembleReport(
       urgentSiteId: urgentSite[i] >= 0 ? problem.siteIds[urgentSite[i]] : null,
     };
     if (layout && writer) {
-      let text = i === 0 ? layout.rowsOpen : layout.rowsSeparator;
+      // The row's keys (the same literal for every row), each with its quotes and colon, once.
+      rowKeys ??= Object.keys(row).map((key) => `${JSON.stringify(key)}${layout.colon}`);
+      let text = i === 0 ? layout.rowsOpen : `${layout.fieldsClose}${layout.rowsSeparator}`;
       text += layout.fieldsOpen;
-      for (const [key, value] of Object.entries(row)) text += `${JSON.stringify(key)}${layout.colon}${JSON.stringify(value)}${layout.fieldsSeparator}`;
-      writer.text(`${text}"flows"${layout.colon}`);
-      if (flowValues.length === 0 && flowPairs.length === 0) writer.text("{}");
-      else if (layout.compact) {
+      const values = Object.values(row);
+      for (let k = 0; k < values.length; k++) {
+        const value = values[k];
+        // As JSON.stringify writes a number, null or string.
+        text += `${rowKeys[k]}${typeof value === "number" ? (Number.isFinite(value) ? String(value) : "null") : JSON.stringify(value)}${layout.fieldsSeparator}`;
+      }
+      const empty = flowValues.length === 0 && flowPairs.length === 0;
+      writer.text(`${text}"flows"${layout.colon}${empty ? "{}" : ""}`);
+      if (!empty && layout.compact) {
         const keys = layout.compact.plain ? null : { lengths: flowKeyLengths, extraBytes: flowKeyExtraBytes };
         writer.compactObjectFromPairs(JSON.stringify(flowPairs), keys);
-      }
-      else {
+      } else if (!empty) {
         // JSON numbers hold no commas, so the commas of this text are exactly the separators.
         const numbers = JSON.stringify(flowValues);
         writer.raw(layout.flowsOpen);
         writer.asciiWithKeys(numbers, 1, numbers.length - 1, layout.flowsSeparator, flowKeys);
         writer.raw(layout.flowsClose);
       }
-      writer.text(layout.fieldsClose);
     } else {
       sources.push({ ...row, flows });
     }
@@ -403,7 +409,7 @@ function assembleReport(
     providers,
     sources,
   };
-  if (layout && writer) writer.text(layout.rowsClose);
+  if (layout && writer) writer.text(`${layout.fieldsClose}${layout.rowsClose}`);
   return { report, sourceBytes: writer ? writer.finish() : null };
 }
 
