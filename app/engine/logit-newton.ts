@@ -65,14 +65,7 @@ export class LogitWorkspace {
   step: Float64Array;
   trial: Float64Array;
   candidates: CandidateSites;
-  /** The block solve's buffers (see `blockNewtonDirection`). */
-  blockRoot: Int32Array;
-  blockSize: Int32Array;
-  blockPosition: Int32Array;
-  blockOffset: Int32Array;
-  blockStart: Int32Array;
-  blockMembers: Int32Array;
-  blockMatrix = new Float64Array(0);
+  blocks: BlockBuffers;
 
   constructor(readonly n: number, readonly m: number) {
     this.rowStart = new Int32Array(n + 1);
@@ -91,23 +84,11 @@ export class LogitWorkspace {
     this.step = new Float64Array(m);
     this.trial = new Float64Array(m);
     this.candidates = new CandidateSites(n, m);
-    this.blockRoot = new Int32Array(m);
-    this.blockSize = new Int32Array(m);
-    this.blockPosition = new Int32Array(m);
-    this.blockOffset = new Int32Array(m);
-    this.blockStart = new Int32Array(m);
-    this.blockMembers = new Int32Array(m);
+    this.blocks = blockBuffers(m);
   }
 
   ensureCapacity(needed: number): void {
-    if (needed <= this.columns.length) return;
-    const size = Math.max(needed, this.columns.length * 2);
-    const columns = new Int32Array(size);
-    columns.set(this.columns);
-    const shares = new Float64Array(size);
-    shares.set(this.shares);
-    this.columns = columns;
-    this.shares = shares;
+    if (needed > this.columns.length) [this.columns, this.shares] = grownPair(this.columns, this.shares, needed);
   }
 }
 
@@ -126,8 +107,8 @@ class CandidateSites {
   drift = Infinity;
   reference: Float64Array;
   rowStart: Int32Array;
-  sites = new Int32Array(0);
-  costs = new Float64Array(0);
+  sites: Int32Array = new Int32Array(0);
+  costs: Float64Array = new Float64Array(0);
 
   constructor(n: number, m: number) {
     this.reference = new Float64Array(m);
@@ -195,7 +176,7 @@ class CandidateSites {
         }
       }
       if (cheapest === Infinity) continue;
-      if (stored + m > this.sites.length) this.grow(stored + m);
+      if (stored + m > this.sites.length) [this.sites, this.costs] = grownPair(this.sites, this.costs, stored + m);
       const limit = cheapest + margin;
       // The whole row, or the list in increasing pair cost up to the first entry past the limit.
       const total = scanRow ? m : listLength;
@@ -216,15 +197,16 @@ class CandidateSites {
     this.pairCost = pairCost;
   }
 
-  private grow(needed: number): void {
-    const size = Math.max(needed, this.sites.length * 2, 1024);
-    const sites = new Int32Array(size);
-    sites.set(this.sites);
-    const costs = new Float64Array(size);
-    costs.set(this.costs);
-    this.sites = sites;
-    this.costs = costs;
-  }
+}
+
+/** Parallel index and value arrays grown together (at least doubled) to hold `needed` entries. */
+function grownPair(indices: Int32Array, values: Float64Array, needed: number): [Int32Array, Float64Array] {
+  const size = Math.max(needed, 2 * indices.length, 1024);
+  const grownIndices = new Int32Array(size);
+  grownIndices.set(indices);
+  const grownValues = new Float64Array(size);
+  grownValues.set(values);
+  return [grownIndices, grownValues];
 }
 
 /** Candidate margin = (1 + CANDIDATE_SKIN) × the logit width; lists wider than CANDIDATE_STALE widths are rebuilt. */
@@ -298,29 +280,51 @@ export function evaluateLogit(view: CostView, theta: number, w: Float64Array, ws
   return Math.sqrt(norm);
 }
 
-/** H as in the header, lower triangle, from the last `evaluateLogit`. */
+/** H as in the header, lower triangle, from the last `evaluateLogit`: one block of all sites. */
 function assembleHessian(view: CostView, theta: number, ws: LogitWorkspace): void {
+  const { root, position, offset, size } = ws.blocks;
+  for (let j = 0; j < view.m; j++) {
+    root[j] = 0;
+    position[j] = j;
+  }
+  offset[0] = 0;
+  size[0] = view.m;
+  assembleBlocks(view, theta, ws, ws.hessian);
+}
+
+/**
+ * H into its diagonal blocks, from the last `evaluateLogit`: the block of site j (rooted at
+ * blocks.root[j]) is the lower triangle of a size × size matrix at blocks.offset of `h`, site j at
+ * row blocks.position[j]. A source's kept sites all lie in one block.
+ */
+function assembleBlocks(view: CostView, theta: number, ws: LogitWorkspace, h: Float64Array): void {
   const { n, m } = view;
-  const h = ws.hessian;
-  h.fill(0);
+  const { root, position, offset, size } = ws.blocks;
+  for (let j = 0; j < m; j++) if (root[j] === j) h.fill(0, offset[j], offset[j] + size[j] * size[j]);
+  for (let j = 0; j < m; j++) {
+    const r = root[j];
+    h[offset[r] + position[j] * (size[r] + 1)] += ws.loadSlope[j];
+  }
   for (let i = 0; i < n; i++) {
     const start = ws.rowStart[i];
     const end = ws.rowStart[i + 1];
     if (end === start) continue;
     const stiff = theta * ws.served[i];
     const rankOne = stiff - ws.servedSlope[i];
+    const r = root[ws.columns[start]];
+    const base = offset[r];
+    const width = size[r];
     for (let a = start; a < end; a++) {
-      const ja = ws.columns[a];
       const pa = ws.shares[a];
-      h[ja * m + ja] += stiff * pa;
+      const ra = position[ws.columns[a]];
+      h[base + ra * (width + 1)] += stiff * pa;
       const coefficient = rankOne * pa;
       for (let b = start; b <= a; b++) {
-        const jb = ws.columns[b];
-        h[ja >= jb ? ja * m + jb : jb * m + ja] -= coefficient * ws.shares[b];
+        const rb = position[ws.columns[b]];
+        h[base + (ra >= rb ? ra * width + rb : rb * width + ra)] -= coefficient * ws.shares[b];
       }
     }
   }
-  for (let j = 0; j < m; j++) h[j * m + j] += ws.loadSlope[j];
 }
 
 /** out = H·v without forming H (work proportional to the kept options). */
@@ -413,6 +417,22 @@ function newtonDirection(view: CostView, theta: number, ws: LogitWorkspace): voi
   }
 }
 
+/** The block solve's buffers: per site its block's root, position in it; per root the block's size and offsets. */
+interface BlockBuffers {
+  root: Int32Array;
+  size: Int32Array;
+  position: Int32Array;
+  offset: Int32Array;
+  start: Int32Array;
+  members: Int32Array;
+  matrix: Float64Array;
+}
+
+function blockBuffers(m: number): BlockBuffers {
+  const [root, size, position, offset, start, members] = Array.from({ length: 6 }, () => new Int32Array(m));
+  return { root, size, position, offset, start, members, matrix: new Float64Array(0) };
+}
+
 /** Sites per block beyond which the block solve gives way to conjugate gradients. */
 const BLOCK_LIMIT = 160;
 
@@ -426,7 +446,8 @@ const BLOCK_LIMIT = 160;
  */
 function blockNewtonDirection(view: CostView, theta: number, ws: LogitWorkspace): boolean {
   const { n, m } = view;
-  const root = ws.blockRoot;
+  const blocks = ws.blocks;
+  const root = blocks.root;
   for (let j = 0; j < m; j++) root[j] = j;
   const find = (j: number): number => {
     while (root[j] !== j) {
@@ -446,8 +467,8 @@ function blockNewtonDirection(view: CostView, theta: number, ws: LogitWorkspace)
     }
   }
   // Blocks: sites numbered within their block, each block's matrix stored at its offset.
-  const size = ws.blockSize;
-  const position = ws.blockPosition;
+  const size = blocks.size;
+  const position = blocks.position;
   size.fill(0);
   for (let j = 0; j < m; j++) {
     const r = find(j);
@@ -456,9 +477,9 @@ function blockNewtonDirection(view: CostView, theta: number, ws: LogitWorkspace)
     if (size[r] > BLOCK_LIMIT) return false;
   }
   // Per block: where its matrix starts, and where its sites are listed in `members`.
-  const offset = ws.blockOffset;
-  const first = ws.blockStart;
-  const members = ws.blockMembers;
+  const offset = blocks.offset;
+  const first = blocks.start;
+  const members = blocks.members;
   let total = 0;
   let listed = 0;
   for (let j = 0; j < m; j++) {
@@ -469,33 +490,9 @@ function blockNewtonDirection(view: CostView, theta: number, ws: LogitWorkspace)
     listed += size[j];
   }
   for (let j = 0; j < m; j++) members[first[root[j]] + position[j]] = j;
-  if (ws.blockMatrix.length < total) ws.blockMatrix = new Float64Array(Math.max(total, 2 * ws.blockMatrix.length));
-  const h = ws.blockMatrix;
-  h.fill(0, 0, total);
-  for (let j = 0; j < m; j++) {
-    const r = root[j];
-    h[offset[r] + position[j] * (size[r] + 1)] += ws.loadSlope[j];
-  }
-  for (let i = 0; i < n; i++) {
-    const start = ws.rowStart[i];
-    const end = ws.rowStart[i + 1];
-    if (end === start) continue;
-    const stiff = theta * ws.served[i];
-    const rankOne = stiff - ws.servedSlope[i];
-    const r = root[ws.columns[start]];
-    const base = offset[r];
-    const width = size[r];
-    for (let a = start; a < end; a++) {
-      const pa = ws.shares[a];
-      const ra = position[ws.columns[a]];
-      h[base + ra * (width + 1)] += stiff * pa;
-      const coefficient = rankOne * pa;
-      for (let b = start; b <= a; b++) {
-        const rb = position[ws.columns[b]];
-        h[base + (ra >= rb ? ra * width + rb : rb * width + ra)] -= coefficient * ws.shares[b];
-      }
-    }
-  }
+  if (blocks.matrix.length < total) blocks.matrix = new Float64Array(Math.max(total, 2 * blocks.matrix.length));
+  const h = blocks.matrix;
+  assembleBlocks(view, theta, ws, h);
   // Solve block by block: gather the residual, factorise, scatter the step.
   for (let j = 0; j < m; j++) {
     if (root[j] !== j) continue;

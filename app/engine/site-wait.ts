@@ -128,6 +128,18 @@ export function createSiteWaitModel(spec: SiteQueueSpec, urgentInflow = 0): Site
   assertNonNegative(urgentInflow, "urgentInflow");
   const queues = buildStageQueues(spec);
   const capacity = Math.max(0, totalCapacity(queues) - urgentInflow);
+  // d^order wait / dx^order: stage s sees v_s·x, so its term carries v_s^(order+1).
+  const derivative = (x: number, order: 1 | 2): number => {
+    const routine = checkInflow(x, "routine inflow");
+    if (routine >= capacity) return Infinity;
+    let total = 0;
+    for (const queue of queues) {
+      const v = queue.visits;
+      const stage = routineStageWaitDerivative(queue, urgentInflow * v, routine * v, order);
+      total += (order === 1 ? v * v : v * v * v) * queue.variabilityFactor * stage;
+    }
+    return total;
+  };
   return {
     capacity,
     wait(x: number): number {
@@ -139,26 +151,8 @@ export function createSiteWaitModel(spec: SiteQueueSpec, urgentInflow = 0): Site
       }
       return total;
     },
-    waitSlope(x: number): number {
-      const routine = checkInflow(x, "routine inflow");
-      if (routine >= capacity) return Infinity;
-      let total = 0;
-      for (const queue of queues) {
-        const slope = routineStageWaitSlope(queue, urgentInflow * queue.visits, routine * queue.visits);
-        total += queue.visits * queue.visits * queue.variabilityFactor * slope;
-      }
-      return total;
-    },
-    waitCurvature(x: number): number {
-      const routine = checkInflow(x, "routine inflow");
-      if (routine >= capacity) return Infinity;
-      let total = 0;
-      for (const queue of queues) {
-        const curvature = routineStageWaitCurvature(queue, urgentInflow * queue.visits, routine * queue.visits);
-        total += queue.visits * queue.visits * queue.visits * queue.variabilityFactor * curvature;
-      }
-      return total;
-    },
+    waitSlope: (x: number): number => derivative(x, 1),
+    waitCurvature: (x: number): number => derivative(x, 2),
   };
 }
 
@@ -190,34 +184,18 @@ function routineStageWait(queue: StageQueue, urgent: number, routine: number): n
   return waitProbability / (stageCapacity * (1 - urgent / stageCapacity) * (1 - utilisation));
 }
 
-/** d/d(routine) of `routineStageWait`, by dB/da = B(c/a − 1 + B) and the chain rule (see priority.ts). */
-function routineStageWaitSlope(queue: StageQueue, urgent: number, routine: number): number {
-  const { servers, ratePerServer } = queue;
-  const stageCapacity = servers * ratePerServer;
-  const total = urgent + routine;
-  if (total >= stageCapacity) return Infinity;
-  const load = total / ratePerServer;
-  const utilisation = total / stageCapacity;
-  const spareShare = 1 - utilisation;
-  const blocking = blockingOf(servers, load);
-  const blockingSlope = load === 0 ? (servers === 1 ? 1 : 0) : blocking * (servers / load - 1 + blocking);
-  const denominator = 1 - utilisation + utilisation * blocking;
-  const waitProbability = blocking / denominator;
-  const waitProbabilitySlope = (spareShare * blockingSlope + (blocking * (1 - blocking)) / servers) / (denominator * denominator);
-  const scale = 1 / (stageCapacity * (1 - urgent / stageCapacity));
-  return scale * (waitProbabilitySlope / (ratePerServer * spareShare) + waitProbability / (stageCapacity * spareShare * spareShare));
-}
-
 /**
- * d²/d(routine)² of `routineStageWait`. With a = λ/μ, ρ = a/c, B Erlang B, D = 1 − ρ + ρB and
+ * d/d(routine) of `routineStageWait` (order 1), by dB/da = B(c/a − 1 + B) and the chain rule (see
+ * priority.ts), or d²/d(routine)² (order 2). With a = λ/μ, ρ = a/c, B Erlang B, D = 1 − ρ + ρB and
  * P = B/D (Erlang C), W = s·P/(1 − ρ) for s = 1/(cμ − u):
- *   B' = B(c/a − 1 + B), B'' = B'(c/a − 1 + B) + B(B' − c/a²)   (from dB/da above),
+ *   B' = B(c/a − 1 + B), B'' = B'(c/a − 1 + B) + B(B' − c/a²),
  *   D' = (B − 1)/c + ρB',  D'' = 2B'/c + ρB'',  P' = (B'D − BD')/D²,  P'' = (B''D − BD'')/D² − 2D'P'/D,
+ *   W' = s·[P'/(μ(1 − ρ)) + P/(cμ(1 − ρ)²)],
  *   W'' = s·[P''/(μ²(1 − ρ)) + 2P'/(μ·cμ·(1 − ρ)²) + 2P/((cμ)²(1 − ρ)³)]   (derivatives in λ).
  * At a = 0, B' and B'' take their limits (B ≈ a^c/c!): B' = 1 for c = 1, else 0; B'' = −2 for
- * c = 1, 1 for c = 2, else 0. Checked against differences of the slope in the tests.
+ * c = 1, 1 for c = 2, else 0. The second derivative is checked against differences of the first.
  */
-function routineStageWaitCurvature(queue: StageQueue, urgent: number, routine: number): number {
+function routineStageWaitDerivative(queue: StageQueue, urgent: number, routine: number, order: 1 | 2): number {
   const { servers, ratePerServer } = queue;
   const stageCapacity = servers * ratePerServer;
   const total = urgent + routine;
@@ -226,25 +204,22 @@ function routineStageWaitCurvature(queue: StageQueue, urgent: number, routine: n
   const utilisation = total / stageCapacity;
   const spareShare = 1 - utilisation;
   const blocking = blockingOf(servers, load);
-  let blockingSlope: number;
-  let blockingCurvature: number;
-  if (load === 0) {
-    blockingSlope = servers === 1 ? 1 : 0;
-    blockingCurvature = servers === 1 ? -2 : servers === 2 ? 1 : 0;
-  } else {
-    const factor = servers / load - 1 + blocking;
-    blockingSlope = blocking * factor;
-    blockingCurvature = blockingSlope * factor + blocking * (blockingSlope - servers / (load * load));
-  }
+  const factor = servers / load - 1 + blocking;
+  const blockingSlope = load === 0 ? (servers === 1 ? 1 : 0) : blocking * factor;
   const denominator = spareShare + utilisation * blocking;
   const denominatorSlope = (blocking - 1) / servers + utilisation * blockingSlope;
-  const denominatorCurvature = (2 * blockingSlope) / servers + utilisation * blockingCurvature;
   const waitProbability = blocking / denominator;
   const waitProbabilitySlope = (blockingSlope * denominator - blocking * denominatorSlope) / (denominator * denominator);
+  const scale = 1 / (stageCapacity * (1 - urgent / stageCapacity));
+  if (order === 1) {
+    return scale * (waitProbabilitySlope / (ratePerServer * spareShare) + waitProbability / (stageCapacity * spareShare * spareShare));
+  }
+  const blockingCurvature =
+    load === 0 ? (servers === 1 ? -2 : servers === 2 ? 1 : 0) : blockingSlope * factor + blocking * (blockingSlope - servers / (load * load));
+  const denominatorCurvature = (2 * blockingSlope) / servers + utilisation * blockingCurvature;
   const waitProbabilityCurvature =
     (blockingCurvature * denominator - blocking * denominatorCurvature) / (denominator * denominator) -
     (2 * denominatorSlope * waitProbabilitySlope) / denominator;
-  const scale = 1 / (stageCapacity * (1 - urgent / stageCapacity));
   return (
     scale *
     (waitProbabilityCurvature / (ratePerServer * ratePerServer * spareShare) +
