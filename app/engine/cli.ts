@@ -18,18 +18,24 @@ import { startRuleThread } from "./rule-thread";
 import type { ScenarioResult } from "./solve-scenario";
 
 /**
- * The engine itself, loaded after the second thread has been started: loading it (~0.2 s with the
- * TypeScript loader) then overlaps the worker's own start-up instead of delaying it.
+ * The engine, loaded after the second thread has been started, so that loading it (~0.3 s with
+ * the TypeScript loader, most of it the schema library) overlaps the worker's own start-up. First
+ * what checking the scenario and posting it to the worker need; the solvers after that, while the
+ * worker is already computing road km.
  */
-async function loadEngine() {
-  const [json, queue, scenario, distances, solve] = await Promise.all([
-    import("./result-json"),
-    import("./rule-queue"),
+async function loadChecks() {
+  const [scenario, distances, order, queue] = await Promise.all([
     import("./scenario"),
     import("./shared-distances"),
-    import("./solve-scenario"),
+    import("./rule-order"),
+    import("./rule-queue"),
   ]);
-  return { ...json, ...queue, ...scenario, ...distances, ...solve };
+  return { ...scenario, ...distances, ...order, ...queue };
+}
+
+async function loadSolvers() {
+  const [json, share, solve] = await Promise.all([import("./result-json"), import("./solve-thread-share"), import("./solve-scenario")]);
+  return { ...json, ...share, ...solve };
 }
 
 const USAGE = "Usage: npm run solve -- FILE.json [--compact]";
@@ -83,37 +89,29 @@ async function main(args: readonly string[]): Promise<number> {
   const large = (json as { sources?: unknown[]; providers?: unknown[] } | null);
   const pairs = Array.isArray(large?.sources) && Array.isArray(large?.providers) ? large.sources.length * large.providers.length : 0;
   const thread = pairs >= PARALLEL_PAIRS ? startRuleThread() : null;
-  const {
-    computeSharedDistances,
-    distanceWork,
-    mergeScenarioResults,
-    parseScenario,
-    RULE_ORDER,
-    resultJsonChunks,
-    ruleQueue,
-    rulesToRun,
-    solveOwnAndQueued,
-    solveScenarioAsJson,
-  } = await loadEngine();
+  const { computeSharedDistances, distanceWork, parseScenario, RULE_ORDER, ruleQueue, rulesToRun } = await loadChecks();
   try {
     const scenario = parseScenario(json);
     const rules = rulesToRun(scenario);
     let result: ScenarioResult<RenderedRuleReport>;
     if (thread) {
-      // The worker gets the checked scenario at once; both threads compute the road km together.
+      // The worker gets the checked scenario at once, before this thread loads the solvers; both
+      // threads compute the road km together (the worker starts on them meanwhile).
       const work = distanceWork(scenario);
       const shared = [...SHARED_RULE_ORDER, ...RULE_ORDER.filter((rule) => !SHARED_RULE_ORDER.includes(rule))].filter(
         (rule) => rules.includes(rule) && !MAIN_THREAD_RULES.includes(rule) && !SECOND_THREAD_RULES.includes(rule),
       );
       const queue = ruleQueue(shared);
       thread.send({ scenario, distances: work, rules: rules.filter((rule) => SECOND_THREAD_RULES.includes(rule)), queue, gap });
+      const { mergeScenarioResults, solveOwnAndQueued } = await loadSolvers();
       const distances = computeSharedDistances(scenario, work);
       const own = solveOwnAndQueued(scenario, distances, rules.filter((rule) => MAIN_THREAD_RULES.includes(rule)), queue, gap);
       const other = await thread.result;
       result = mergeScenarioResults([own, other].filter((part) => part !== null));
     } else {
-      result = solveScenarioAsJson(scenario, {}, gap);
+      result = (await loadSolvers()).solveScenarioAsJson(scenario, {}, gap);
     }
+    const { resultJsonChunks } = await loadSolvers();
     for (const chunk of resultJsonChunks(result, gap)) process.stdout.write(chunk);
     process.stdout.write("\n");
     const periodsWithout = (result.periods ?? []).flatMap((period) =>

@@ -3,7 +3,7 @@
  * shared queue, write their reports as JSON text, answer once.
  */
 import { parentPort } from "node:worker_threads";
-import { solveOwnAndQueued } from "./rule-queue";
+import { solveOwnAndQueued } from "./solve-thread-share";
 import type { RuleThreadReply, RuleThreadRequest } from "./rule-thread";
 import { computeSharedDistances } from "./shared-distances";
 

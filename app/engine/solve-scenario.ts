@@ -21,6 +21,7 @@ import { solveLogit } from "./logit";
 import { solveOptimum } from "./optimum";
 import { solvePlan } from "./plan";
 import { NoSteadyStateError, type RuleKey } from "./problem";
+import { RULE_ORDER, rulesToRun } from "./rule-order";
 import { finite, reportRule, UTILISATION_WARNING, type RuleReport, type RuleSolution } from "./rule-report";
 import type { Scenario, ScenarioPeriod } from "./scenario";
 
@@ -29,8 +30,7 @@ export const RESULT_SCHEMA = "equilibra/result@1";
 /** The cautions carried by every result (PRODUCT.md, "Cautions to show"). */
 export const RESULT_CAUTIONS = PLANNING_CAUTIONS;
 
-/** The order rules are run and reported in. */
-export const RULE_ORDER: readonly RuleKey[] = ["choice", "choiceLogit", "optimum", "nearest", "capacityShare", "plan"];
+export { RULE_ORDER, rulesToRun } from "./rule-order";
 
 export interface SolveScenarioOptions {
   /** Only these rules (default: all that apply — choiceLogit with a logit choice model, plan when `plan` is set). */
@@ -171,12 +171,6 @@ export function solveScenarioWith<R extends RuleSummary>(scenario: Scenario, opt
   };
 }
 
-/** The rules `solveScenario` runs: all that apply to the scenario, or those of them requested. */
-export function rulesToRun(scenario: Scenario, requested?: readonly RuleKey[]): RuleKey[] {
-  const applies = (rule: RuleKey) =>
-    rule === "choiceLogit" ? scenario.choiceModel.kind === "logit" : rule === "plan" ? Boolean(scenario.plan) : true;
-  return RULE_ORDER.filter((rule) => applies(rule) && (!requested || requested.includes(rule)));
-}
 
 function solvePeriod<R extends RuleSummary>(
   scenario: Scenario,
