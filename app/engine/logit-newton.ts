@@ -196,7 +196,6 @@ class CandidateSites {
     this.margin = margin;
     this.pairCost = pairCost;
   }
-
 }
 
 /** Parallel index and value arrays grown together (at least doubled) to hold `needed` entries. */
@@ -209,7 +208,7 @@ function grownPair(indices: Int32Array, values: Float64Array, needed: number): [
   return [grownIndices, grownValues];
 }
 
-/** Candidate margin = (1 + CANDIDATE_SKIN) × the logit width; lists wider than CANDIDATE_STALE widths are rebuilt. */
+/** The candidate lists' skin, in logit widths (see `marginFor`); lists wider than CANDIDATE_STALE widths are rebuilt. */
 const CANDIDATE_SKIN = 2;
 const CANDIDATE_STALE = 8;
 /** Candidates per source up to which a skin is worth its wider lists. */
