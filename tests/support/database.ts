@@ -42,6 +42,14 @@ export async function createTestDatabase(kind: TestDatabaseKind = "pglite"): Pro
         await open.close();
         const dropper = new Client({ connectionString: serverUrl });
         await dropper.connect();
+        // The pool's end() resolves while its clients may still be closing their connections; a
+        // FORCE drop then cut one off mid-close, and its error reached vitest as an uncaught
+        // exception (a whole run failed on it once). Wait until the server has let them all go.
+        for (let attempt = 0; attempt < 250; attempt++) {
+          const { rows } = await dropper.query<{ open: number }>("SELECT count(*)::int AS open FROM pg_stat_activity WHERE datname = $1", [name]);
+          if (rows[0].open === 0) break;
+          await new Promise((resolve) => setTimeout(resolve, 20));
+        }
         await dropper.query(`DROP DATABASE IF EXISTS ${name} WITH (FORCE)`);
         await dropper.end();
       },
