@@ -20,8 +20,8 @@ export interface SiteWaitModel {
   wait(x: number): number;
   /** d wait / dx at routine inflow x (weeks per referral/week); Infinity at or above capacity. */
   waitSlope(x: number): number;
-  /** d² wait / dx² at routine inflow x, when the model has it in closed form (marginal costs' slope). */
-  waitCurvature?(x: number): number;
+  /** d² wait / dx² at routine inflow x (the marginal cost's slope needs it); Infinity at or above capacity. */
+  waitCurvature(x: number): number;
 }
 
 export interface LineProblem {

@@ -15,9 +15,9 @@
  * never hold a raw line break), so a report written alone at its depth is the same text.
  */
 import { utf8 } from "./byte-writer";
-import { indentAtDepth, type RuleReport, type RuleReportJson, ruleReportJson } from "./rule-report";
+import { indentAtDepth, type RuleReportJson, ruleReportJson } from "./rule-report";
 import type { Scenario } from "./scenario";
-import { type LineReport, type PeriodReport, RULE_REPORT_DEPTH, type ScenarioResult, solveScenarioWith, type SolveScenarioOptions } from "./solve-scenario";
+import { type LineReport, type ScenarioResult, solveScenarioWith, type SolveScenarioOptions } from "./solve-scenario";
 
 /** A rule's report as JSON text, with what merging results reads from it. */
 export type RenderedRuleReport = RuleReportJson;
@@ -30,27 +30,6 @@ export function jsonAtDepth(value: unknown, gap: string, depth: number): string 
 /** `solveScenario` with every rule's report written as JSON text (`gap` as JSON.stringify's third argument). */
 export function solveScenarioAsJson(scenario: Scenario, options: SolveScenarioOptions, gap: string): ScenarioResult<RenderedRuleReport> {
   return solveScenarioWith(scenario, options, (solved, build, solution, depth) => ruleReportJson(solved, build, solution, gap, depth));
-}
-
-/** Every rule report of a solved result written as JSON text (the same text as `solveScenarioAsJson`'s), from its objects. */
-export function renderRuleReports(result: ScenarioResult, gap: string): ScenarioResult<RenderedRuleReport> {
-  const renderLines = (lines: Record<string, LineReport>, depth: number): Record<string, LineReport<RenderedRuleReport>> => {
-    const rendered: Record<string, LineReport<RenderedRuleReport>> = {};
-    for (const [lineId, line] of Object.entries(lines)) {
-      const rules: LineReport<RenderedRuleReport>["rules"] = {};
-      for (const [rule, report] of Object.entries(line.rules) as [keyof typeof line.rules, RuleReport][]) {
-        rules[rule] = { totalCost: report.totalCost, warnings: report.warnings, json: [utf8(jsonAtDepth(report, gap, depth))] };
-      }
-      rendered[lineId] = { ...line, rules };
-    }
-    return rendered;
-  };
-  // `periods` is overwritten in place (undefined when absent, which JSON leaves out): key order is kept.
-  return {
-    ...result,
-    lines: renderLines(result.lines, RULE_REPORT_DEPTH.line),
-    periods: result.periods?.map((period): PeriodReport<RenderedRuleReport> => ({ ...period, lines: renderLines(period.lines, RULE_REPORT_DEPTH.period) })),
-  };
 }
 
 /**

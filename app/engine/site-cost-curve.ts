@@ -24,19 +24,10 @@ export interface SiteCostCurve {
 
 /** The marginal cost x ↦ W(x) + x·W'(x) of a site, with slope 2W' + x·W''. */
 export function marginalCostCurve(site: SiteWaitModel): SiteCostCurve {
-  const curvature = (x: number): number => {
-    if (site.waitCurvature) return site.waitCurvature(x);
-    // Central difference of the exact slope; the step shrinks with the distance to capacity,
-    // where W'' grows like (capacity − x)^-3.
-    const room = site.capacity - x;
-    const h = 1e-4 * Math.max(Math.min(x, room), 1e-12 * site.capacity);
-    if (x < h) return (site.waitSlope(x + h) - site.waitSlope(x)) / h;
-    return (site.waitSlope(x + h) - site.waitSlope(x - h)) / (2 * h);
-  };
   return {
     capacity: site.capacity,
     cost: (x) => (x >= site.capacity ? Infinity : site.wait(x) + x * site.waitSlope(x)),
-    slope: (x) => (x >= site.capacity ? Infinity : 2 * site.waitSlope(x) + x * curvature(x)),
+    slope: (x) => (x >= site.capacity ? Infinity : 2 * site.waitSlope(x) + x * site.waitCurvature(x)),
   };
 }
 

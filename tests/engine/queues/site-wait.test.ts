@@ -64,15 +64,15 @@ describe("createSiteWaitModel", () => {
         const h = 1e-3 * Math.min(x, model.capacity - x);
         const difference =
           (-model.waitSlope(x + 2 * h) + 8 * model.waitSlope(x + h) - 8 * model.waitSlope(x - h) + model.waitSlope(x - 2 * h)) / (12 * h);
-        const curvature = model.waitCurvature?.(x) ?? NaN;
+        const curvature = model.waitCurvature(x);
         expect(Math.abs(curvature - difference)).toBeLessThanOrEqual(1e-7 * Math.abs(difference) + 1e-12);
       }
       // At no load: the limits (B ≈ a^c/c!), compared with a one-sided difference from x = 0.
       const h = 1e-6 * model.capacity;
       const oneSided = (-3 * model.waitSlope(0) + 4 * model.waitSlope(h) - model.waitSlope(2 * h)) / (2 * h);
-      expect(Math.abs((model.waitCurvature?.(0) ?? NaN) - oneSided)).toBeLessThanOrEqual(1e-4 * Math.abs(oneSided) + 1e-9);
+      expect(Math.abs(model.waitCurvature(0) - oneSided)).toBeLessThanOrEqual(1e-4 * Math.abs(oneSided) + 1e-9);
     }
-    expect(createSiteWaitModel({ teams: 2, ratePerTeam: 1 }).waitCurvature?.(2)).toBe(Infinity);
+    expect(createSiteWaitModel({ teams: 2, ratePerTeam: 1 }).waitCurvature(2)).toBe(Infinity);
   });
 
   it("behind urgent referrals gives the Cobham (1954) routine wait: c = 2, μ = 1, u = 0.5, x = 1 → 12/7", () => {

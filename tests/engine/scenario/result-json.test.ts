@@ -8,15 +8,41 @@
 import { readFileSync } from "node:fs";
 import { describe, expect, it } from "vitest";
 import { lineDistances } from "~/engine/build-problem";
-import { jsonAtDepth, renderRuleReports, resultJsonChunks, solveScenarioAsJson } from "~/engine/result-json";
+import { utf8 } from "~/engine/byte-writer";
+import { jsonAtDepth, type RenderedRuleReport, resultJsonChunks, solveScenarioAsJson } from "~/engine/result-json";
+import type { RuleReport } from "~/engine/rule-report";
 import { parseScenario, type Scenario } from "~/engine/scenario";
-import { mergeScenarioResults, rulesToRun, solveScenario } from "~/engine/solve-scenario";
+import { type LineReport, mergeScenarioResults, type PeriodReport, RULE_REPORT_DEPTH, rulesToRun, type ScenarioResult, solveScenario } from "~/engine/solve-scenario";
 import { generateScenarioDocument, LARGE } from "../../bench/generate";
 
 const fixture = (name: string) => JSON.parse(readFileSync(new URL(`./fixtures/${name}`, import.meta.url), "utf8"));
 /** The chunks joined as the bytes written to stdout, read back as text. */
 const joined = (chunks: (string | Uint8Array)[]) => Buffer.concat(chunks.map((chunk) => (typeof chunk === "string" ? Buffer.from(chunk, "utf8") : chunk))).toString("utf8");
 const demo = () => JSON.parse(readFileSync(new URL("../../../seed/demo-scenario.json", import.meta.url), "utf8"));
+
+/**
+ * Every rule report of a solved result written as JSON text from its objects, by JSON.stringify
+ * itself: a second way to the parts, independent of the report writer.
+ */
+function renderRuleReports(result: ScenarioResult, gap: string): ScenarioResult<RenderedRuleReport> {
+  const renderLines = (lines: Record<string, LineReport>, depth: number): Record<string, LineReport<RenderedRuleReport>> => {
+    const rendered: Record<string, LineReport<RenderedRuleReport>> = {};
+    for (const [lineId, line] of Object.entries(lines)) {
+      const rules: LineReport<RenderedRuleReport>["rules"] = {};
+      for (const [rule, report] of Object.entries(line.rules) as [keyof typeof line.rules, RuleReport][]) {
+        rules[rule] = { totalCost: report.totalCost, warnings: report.warnings, json: [utf8(jsonAtDepth(report, gap, depth))] };
+      }
+      rendered[lineId] = { ...line, rules };
+    }
+    return rendered;
+  };
+  // `periods` is overwritten in place (undefined when absent, which JSON leaves out): key order is kept.
+  return {
+    ...result,
+    lines: renderLines(result.lines, RULE_REPORT_DEPTH.line),
+    periods: result.periods?.map((period): PeriodReport<RenderedRuleReport> => ({ ...period, lines: renderLines(period.lines, RULE_REPORT_DEPTH.period) })),
+  };
+}
 
 const cases: [string, () => Scenario][] = [
   ["two practices, two sites (small)", () => parseScenario(fixture("two-practices-two-sites.json"))],
