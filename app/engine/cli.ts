@@ -131,4 +131,9 @@ async function main(args: readonly string[]): Promise<number> {
   }
 }
 
+// A reader that stops early (`npm run solve -- FILE | head`) is not a failure of the solve.
+process.stdout.on("error", (error: NodeJS.ErrnoException) => {
+  if (error.code !== "EPIPE") throw error;
+  process.exit(process.exitCode ?? 0);
+});
 process.exitCode = await main(process.argv.slice(2));

@@ -20,7 +20,8 @@ import type { RuleQueue } from "./rule-queue";
 import type { Scenario } from "./scenario";
 import type { DistanceWork } from "./shared-distances";
 import type { ScenarioResult } from "./solve-scenario";
-// Only type imports besides this one: the command line starts the worker before it loads the engine.
+// Only type imports besides these: the command line starts the worker before it loads the engine.
+import { Worker } from "node:worker_threads";
 import { startTypeScriptWorker } from "./typescript-worker";
 
 export interface RuleThreadRequest {
@@ -49,8 +50,12 @@ export function startRuleThread(): {
   result: Promise<ScenarioResult<RenderedRuleReport> | null>;
   stop: () => void;
 } {
-  const entry = new URL("./rule-thread-entry.ts", import.meta.url).href;
-  const worker = startTypeScriptWorker(entry);
+  // From the command line's bundle (cli-launcher.mjs) the entry is a bundled module beside this
+  // code; from source (tests, tsx) it is the TypeScript file, run through tsx's loader.
+  const bundled = import.meta.url.endsWith(".mjs");
+  const worker = bundled
+    ? new Worker(new URL("./rule-thread-entry.mjs", import.meta.url))
+    : startTypeScriptWorker(new URL("./rule-thread-entry.ts", import.meta.url).href);
   const result = new Promise<ScenarioResult<RenderedRuleReport> | null>((resolve, reject) => {
     worker.once("message", (reply: RuleThreadReply) => {
       void worker.terminate();

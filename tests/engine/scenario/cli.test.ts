@@ -1,25 +1,32 @@
 /**
  * `npm run solve -- FILE.json`: exit codes 0 / 2 / 3 and their messages, on fixture files,
- * by running the real command line in a child process.
+ * by running the real command line in a child process — through its launcher, which runs a
+ * bundle of the TypeScript sources (`app/engine/cli-launcher.mjs`), as `npm run solve` does.
  */
 import { spawn } from "node:child_process";
+import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from "node:fs";
+import { tmpdir } from "node:os";
+import path from "node:path";
 import { fileURLToPath } from "node:url";
-import { describe, expect, it } from "vitest";
+import { afterAll, describe, expect, it } from "vitest";
 
 const root = fileURLToPath(new URL("../../..", import.meta.url));
 const fixtures = "tests/engine/scenario/fixtures";
+/** This file's own bundle cache: the bundle is built from the sources as they are now. */
+const cache = mkdtempSync(path.join(tmpdir(), "equilibra-solve-cache-"));
+afterAll(() => rmSync(cache, { recursive: true, force: true }));
 
-/**
- * Runs `node --import tsx app/engine/cli.ts …` exactly as `npm run solve --` does, called directly
- * because npm's own start-up costs time per case.
- */
+/** Runs `node app/engine/cli-launcher.mjs …` exactly as `npm run solve --` does, called directly because npm's own start-up costs time per case. */
 function solve(...args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
   return solveWith({}, ...args);
 }
 
 function solveWith(env: Record<string, string>, ...args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
   return new Promise((resolve, reject) => {
-    const child = spawn(process.execPath, ["--import", "tsx", "app/engine/cli.ts", ...args], { cwd: root, env: { ...process.env, ...env } });
+    const child = spawn(process.execPath, ["app/engine/cli-launcher.mjs", ...args], {
+      cwd: root,
+      env: { ...process.env, EQUILIBRA_SOLVE_CACHE: cache, ...env },
+    });
     let stdout = "";
     let stderr = "";
     child.stdout.setEncoding("utf8").on("data", (chunk: string) => (stdout += chunk));
@@ -114,5 +121,36 @@ describe("the solve command line", () => {
       `Scenario file "${fixtures}/winter-without-steady-state.json" solved, but some periods have no steady state:\n` +
         'No steady state for service line "ortho" in period "winter": demand without an outside option 3.30 referrals/week exceeds the capacity of sites ZZS1, ZZS2 (2.80/week) by 0.50 referrals/week.\n',
     );
+  });
+});
+
+describe("the command line's launcher", () => {
+  const current = () => JSON.parse(readFileSync(path.join(cache, "current.json"), "utf8")) as { key: string; inputs: string[] };
+  const builds = () => readdirSync(cache).filter((name) => name !== "current.json").sort();
+
+  it("builds the bundle once and reuses it while its inputs are unchanged", async () => {
+    expect((await solve(`${fixtures}/single-site-balking.json`, "--compact")).code).toBe(0);
+    const first = current();
+    expect(first.inputs).toContain("app/engine/cli.ts");
+    expect(first.inputs.some((input) => input.includes("zod"))).toBe(true);
+    expect(existsSync(path.join(cache, first.key, "rule-thread-entry.mjs"))).toBe(true);
+    const before = builds();
+    expect((await solve(`${fixtures}/single-site-balking.json`, "--compact")).code).toBe(0);
+    expect(current().key).toBe(first.key);
+    expect(builds()).toEqual(before);
+  });
+
+  it("rebuilds when the recorded inputs no longer match the files or the bundle is gone", async () => {
+    expect((await solve(`${fixtures}/single-site-balking.json`, "--compact")).code).toBe(0);
+    const { key, inputs } = current();
+    // As if a source had changed since the build: the recorded key no longer matches.
+    writeFileSync(path.join(cache, "current.json"), JSON.stringify({ key: "0000000000000000", esbuild: "0", inputs }));
+    const again = await solve(`${fixtures}/single-site-balking.json`, "--compact");
+    expect(again.code).toBe(0);
+    expect(again.stderr).toBe("");
+    expect(current().key).toBe(key);
+    rmSync(path.join(cache, key), { recursive: true });
+    expect((await solve(`${fixtures}/single-site-balking.json`, "--compact")).code).toBe(0);
+    expect(existsSync(path.join(cache, key, "cli.mjs"))).toBe(true);
   });
 });
