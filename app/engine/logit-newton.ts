@@ -28,7 +28,7 @@
 import { logitBalkingShare } from "./outside-option";
 import { choleskySolveInPlace } from "./dense-linear";
 import type { SiteInverse } from "./site-cost-curve";
-import { lowestCost, nearestSites } from "./nearest-sites";
+import { grownPair, lowestCost, nearestSites, sortedRow } from "./nearest-sites";
 
 /** Options costlier than the cheapest by more than this many 1/θ carry shares below e^-40. */
 export const LOGIT_CUTOFF = 40;
@@ -149,41 +149,45 @@ class CandidateSites {
   /** Rebuilds the lists at costs w with the given margin (exact: the nearest-site lists' reading rule). */
   build(view: CostView, w: Float64Array, margin: number): void {
     const { n, m, demand, pairCost } = view;
-    const { sites: listed, costs: listedCost, count, bound, perSource } = nearestSites(pairCost, n, m);
+    const lists = nearestSites(pairCost, n, m);
     const lowestSiteCost = lowestCost(w);
     let stored = 0;
     for (let i = 0; i < n; i++) {
       this.rowStart[i] = stored;
       if (!(demand[i] > 0)) continue;
-      const row = i * m;
-      const base = i * perSource;
-      const listLength = count[i];
       // The list is in increasing pair cost and no site costs less than lowestSiteCost, so once
       // lowestSiteCost + pair cost reaches the cheapest so far, no later entry can be cheaper.
+      let sites = lists.sites;
+      let costs = lists.costs;
+      let from = i * lists.perSource;
+      let to = from + lists.count[i];
       let cheapest = Infinity;
-      for (let k = 0; k < listLength; k++) {
-        const c = listedCost[base + k];
+      for (let k = from; k < to; k++) {
+        const c = costs[k];
         if (lowestSiteCost + c >= cheapest) break;
-        const g = w[listed[base + k]] + c;
+        const g = w[sites[k]] + c;
         if (g < cheapest) cheapest = g;
       }
-      // Sites off the list cost at least lowestSiteCost + bound: scan the row only if that could matter.
-      const scanRow = lowestSiteCost + bound[i] <= cheapest + margin;
-      if (scanRow) {
-        for (let j = 0; j < m; j++) {
-          const g = w[j] + pairCost[row + j];
+      // Sites off the list cost at least lowestSiteCost + bound: read the whole row (sorted) only if that could matter.
+      if (lowestSiteCost + lists.bound[i] <= cheapest + margin) {
+        from = sortedRow(lists, pairCost, m, i);
+        to = from + lists.rowCount[i];
+        sites = lists.rowSites;
+        costs = lists.rowCosts;
+        for (let k = from; k < to; k++) {
+          const c = costs[k];
+          if (lowestSiteCost + c >= cheapest) break;
+          const g = w[sites[k]] + c;
           if (g < cheapest) cheapest = g;
         }
       }
       if (cheapest === Infinity) continue;
       if (stored + m > this.sites.length) [this.sites, this.costs] = grownPair(this.sites, this.costs, stored + m);
       const limit = cheapest + margin;
-      // The whole row, or the list in increasing pair cost up to the first entry past the limit.
-      const total = scanRow ? m : listLength;
-      for (let k = 0; k < total; k++) {
-        const c = scanRow ? pairCost[row + k] : listedCost[base + k];
-        if (!scanRow && lowestSiteCost + c > limit) break;
-        const j = scanRow ? k : listed[base + k];
+      for (let k = from; k < to; k++) {
+        const c = costs[k];
+        if (lowestSiteCost + c > limit) break;
+        const j = sites[k];
         if (w[j] + c <= limit) {
           this.sites[stored] = j;
           this.costs[stored] = c;
@@ -196,16 +200,6 @@ class CandidateSites {
     this.margin = margin;
     this.pairCost = pairCost;
   }
-}
-
-/** Parallel index and value arrays grown together (at least doubled) to hold `needed` entries. */
-function grownPair(indices: Int32Array, values: Float64Array, needed: number): [Int32Array, Float64Array] {
-  const size = Math.max(needed, 2 * indices.length, 1024);
-  const grownIndices = new Int32Array(size);
-  grownIndices.set(indices);
-  const grownValues = new Float64Array(size);
-  grownValues.set(values);
-  return [grownIndices, grownValues];
 }
 
 /** The candidate lists' skin, in logit widths (see `marginFor`); lists wider than CANDIDATE_STALE widths are rebuilt. */

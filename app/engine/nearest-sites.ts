@@ -5,7 +5,11 @@
  * K-th cost, `bound`. A site outside the list costs at least (lowest site cost anywhere) + bound,
  * so when that exceeds the source's cheapest listed option by more than the width that matters
  * (the logit cutoff), no other site can be cheapest or carry a share — and the solver looks at
- * K sites instead of m. Otherwise it scans the full row (exact either way).
+ * K sites instead of m. Otherwise the source's whole row is read, sorted by pair cost once and
+ * kept (`sortedRow`), so that the same early stop applies to it (exact either way). The lowest
+ * site cost is often near zero (a many-team site has almost no wait below high load), which makes
+ * that bound weak: on a national instance ~1,000 of 7,000 sources needed their rows at every
+ * evaluation, three quarters of the work of building the candidate lists when rows were scanned whole.
  *
  * Lists are cached per pair-cost array, so the rules solved on one line share them.
  */
@@ -20,6 +24,14 @@ export interface NearestSites {
   /** Largest pair cost in each source's list; Infinity when the list holds every allowed site. */
   bound: Float64Array;
   perSource: number;
+  /** Whole rows sorted on demand (`sortedRow`): each source's start in rowSites/rowCosts, −1 until sorted. */
+  rowStart: Int32Array;
+  /** Allowed sites in each sorted row. */
+  rowCount: Int32Array;
+  rowSites: Int32Array;
+  rowCosts: Float64Array;
+  /** Entries of rowSites/rowCosts in use. */
+  rowsUsed: number;
 }
 
 export const NEAREST_LIST_SIZE = 48;
@@ -54,9 +66,96 @@ export function nearestSites(pairCost: Float64Array, n: number, m: number): Near
     bound[i] = threshold;
     sortList(sites, costs, pairCost, row, base, k);
   }
-  const result = { sites, costs, count, bound, perSource };
+  const result: NearestSites = {
+    sites,
+    costs,
+    count,
+    bound,
+    perSource,
+    rowStart: new Int32Array(n).fill(-1),
+    rowCount: new Int32Array(n),
+    rowSites: new Int32Array(0),
+    rowCosts: new Float64Array(0),
+    rowsUsed: 0,
+  };
   cache.set(pairCost, result);
   return result;
+}
+
+/**
+ * Source i's whole row — its allowed sites in increasing pair cost — sorted on the first call and
+ * kept; returns its start in `lists.rowSites`/`rowCosts` (which a later call may replace by larger
+ * arrays: read them after calling), `lists.rowCount[i]` entries long.
+ *
+ * Sorted natively: each cost goes into a double whose lowest mantissa bits are overwritten by its
+ * site's index, so one typed-array sort orders sites by cost and carries the index along. The
+ * keys differ from the costs by less than 2^(bits − 52) relatively, so only nearly equal costs can
+ * come out of order, and one insertion pass on the exact costs puts those right.
+ */
+export function sortedRow(lists: NearestSites, pairCost: Float64Array, m: number, i: number): number {
+  const known = lists.rowStart[i];
+  if (known >= 0) return known;
+  const row = i * m;
+  const start = lists.rowsUsed;
+  if (start + m > lists.rowSites.length) [lists.rowSites, lists.rowCosts] = grownPair(lists.rowSites, lists.rowCosts, start + m);
+  const keys = rowKeys(m);
+  const words = new Uint32Array(keys.buffer, 0, 2 * m);
+  const mask = indexMask(m);
+  let allowed = 0;
+  for (let j = 0; j < m; j++) {
+    const cost = pairCost[row + j];
+    if (!(cost < Infinity)) continue;
+    keys[allowed] = cost;
+    const word = 2 * allowed + LOW_WORD;
+    words[word] = (words[word] & ~mask) | j;
+    allowed++;
+  }
+  keys.subarray(0, allowed).sort();
+  const sites = lists.rowSites;
+  const costs = lists.rowCosts;
+  for (let k = 0; k < allowed; k++) {
+    const site = words[2 * k + LOW_WORD] & mask;
+    const cost = pairCost[row + site];
+    let b = start + k - 1;
+    while (b >= start && costs[b] > cost) {
+      sites[b + 1] = sites[b];
+      costs[b + 1] = costs[b];
+      b--;
+    }
+    sites[b + 1] = site;
+    costs[b + 1] = cost;
+  }
+  lists.rowStart[i] = start;
+  lists.rowCount[i] = allowed;
+  lists.rowsUsed = start + allowed;
+  return start;
+}
+
+/** Index of a double's low 32-bit word in a Uint32Array view (0 on little-endian machines). */
+const LOW_WORD = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1 ? 0 : 1;
+
+let keyScratch = new Float64Array(0);
+
+function rowKeys(m: number): Float64Array {
+  if (keyScratch.length < m) keyScratch = new Float64Array(m);
+  return keyScratch;
+}
+
+/** The lowest bits of a key that hold a site index below m. */
+function indexMask(m: number): number {
+  let bits = 1;
+  while (2 ** bits < m) bits++;
+  return 2 ** bits - 1;
+}
+
+/** Parallel index and value arrays grown together (at least doubled) to hold `needed` entries. */
+export function grownPair(indices: Int32Array, values: Float64Array, needed: number): [Int32Array, Float64Array] {
+  const size = Math.max(needed, 2 * indices.length, 1024);
+  const grownIndices = new Int32Array(size);
+  grownIndices.set(indices);
+  const grownValues = new Float64Array(size);
+  grownValues.set(values);
+  return [grownIndices, grownValues];
 }
 
 /** Orders one source's list by pair cost (insertion sort: lists are short) and fills its costs. */
@@ -111,49 +210,50 @@ export function lowestCost(w: Float64Array): number {
 /**
  * The site with the lowest cost w_j + pairCost(i, j) for source i, the lowest index among exact
  * ties (−1 when no site is allowed). Reads the sorted list until `lowest` + pair cost exceeds the
- * best so far, and the whole row only when a site off the list could still be cheaper —
- * the same answer as a scan of the row.
+ * best so far, and the sorted whole row the same way only when a site off the list could still
+ * be cheaper — the same answer as a scan of the row.
  */
 export function cheapestSite(lists: NearestSites, pairCost: Float64Array, m: number, w: Float64Array, lowest: number, i: number): number {
-  const base = i * lists.perSource;
   let best = Infinity;
   let bestSite = -1;
-  for (let k = 0; k < lists.count[i]; k++) {
-    const c = lists.costs[base + k];
-    if (lowest + c > best) break;
-    const j = lists.sites[base + k];
-    const g = w[j] + c;
-    if (g < best || (g === best && j < bestSite)) {
-      best = g;
-      bestSite = j;
-    }
-  }
-  if (lowest + lists.bound[i] <= best) {
-    const row = i * m;
-    for (let j = 0; j < m; j++) {
-      const g = w[j] + pairCost[row + j];
+  const read = (sites: Int32Array, costs: Float64Array, from: number, to: number) => {
+    for (let k = from; k < to; k++) {
+      const c = costs[k];
+      if (lowest + c > best) break;
+      const j = sites[k];
+      const g = w[j] + c;
       if (g < best || (g === best && j < bestSite)) {
         best = g;
         bestSite = j;
       }
     }
+  };
+  const base = i * lists.perSource;
+  read(lists.sites, lists.costs, base, base + lists.count[i]);
+  if (lowest + lists.bound[i] <= best) {
+    const start = sortedRow(lists, pairCost, m, i);
+    read(lists.rowSites, lists.rowCosts, start, start + lists.rowCount[i]);
   }
   return bestSite;
 }
 
 /** The sites j with w_j + pairCost(i, j) ≤ limit, in increasing index order (same reading rule as `cheapestSite`). */
 export function sitesWithin(lists: NearestSites, pairCost: Float64Array, m: number, w: Float64Array, lowest: number, i: number, limit: number): number[] {
-  const base = i * lists.perSource;
-  const found: number[] = [];
+  let sites = lists.sites;
+  let costs = lists.costs;
+  let from = i * lists.perSource;
+  let to = from + lists.count[i];
   if (lowest + lists.bound[i] <= limit) {
-    const row = i * m;
-    for (let j = 0; j < m; j++) if (w[j] + pairCost[row + j] <= limit) found.push(j);
-    return found;
+    from = sortedRow(lists, pairCost, m, i);
+    to = from + lists.rowCount[i];
+    sites = lists.rowSites;
+    costs = lists.rowCosts;
   }
-  for (let k = 0; k < lists.count[i]; k++) {
-    const c = lists.costs[base + k];
+  const found: number[] = [];
+  for (let k = from; k < to; k++) {
+    const c = costs[k];
     if (lowest + c > limit) break;
-    const j = lists.sites[base + k];
+    const j = sites[k];
     if (w[j] + c <= limit) found.push(j);
   }
   return found.sort((a, b) => a - b);
