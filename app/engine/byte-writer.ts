@@ -1,27 +1,39 @@
 /**
- * A growing buffer of UTF-8 bytes, for writing large JSON texts piece by piece (a national
+ * UTF-8 bytes written piece by piece into a list of chunks, for large JSON texts (a national
  * result's practice→site flows are tens of MB). Bytes rather than strings: joining millions of
- * short strings costs more than the text itself, and a byte buffer can be handed from a worker
- * thread to the main thread without a copy and written to stdout as it is.
+ * short strings costs more than the text itself, and byte chunks can be handed from a worker
+ * thread to the main thread without a copy and written to stdout as they are.
+ *
+ * Why chunks rather than one growing buffer: on a national report a doubling buffer ends at
+ * 64 MB, and every growth copies all that was written into fresh memory — about twice the
+ * text's size touched for the first time, and first touches (page faults) are what writing
+ * costs most. Chunks are never copied and never much larger than what they hold. Each write
+ * reserves room for its whole text in one chunk, so no character or key is ever split between
+ * two chunks (writes larger than a chunk get a chunk of their own).
  */
 const encoder = new TextEncoder();
 
+/** The first chunk's size; each next chunk doubles, up to MAX_CHUNK_BYTES (small texts stay small). */
+const FIRST_CHUNK_BYTES = 1 << 16;
+const MAX_CHUNK_BYTES = 1 << 20;
+
 export class ByteWriter {
+  private readonly full: Uint8Array[] = [];
   private bytes: Uint8Array;
   private used = 0;
+  private readonly maxChunkBytes: number;
 
-  constructor(initialBytes = 1 << 16) {
-    this.bytes = new Uint8Array(initialBytes);
+  constructor(firstChunkBytes = FIRST_CHUNK_BYTES, maxChunkBytes = MAX_CHUNK_BYTES) {
+    this.bytes = new Uint8Array(firstChunkBytes);
+    this.maxChunkBytes = Math.max(firstChunkBytes, maxChunkBytes);
   }
 
-  /** Room for `extra` more bytes (the buffer doubles as needed). */
+  /** Room for `extra` more bytes in the current chunk: a new chunk when they do not fit. */
   private reserve(extra: number): void {
     if (this.used + extra <= this.bytes.length) return;
-    let size = this.bytes.length * 2;
-    while (size < this.used + extra) size *= 2;
-    const grown = new Uint8Array(size);
-    grown.set(this.bytes.subarray(0, this.used));
-    this.bytes = grown;
+    if (this.used > 0) this.full.push(this.bytes.subarray(0, this.used));
+    this.bytes = new Uint8Array(Math.max(extra, Math.min(this.bytes.length * 2, this.maxChunkBytes)));
+    this.used = 0;
   }
 
   /** Any text, encoded as UTF-8. */
@@ -112,9 +124,9 @@ export class ByteWriter {
     this.used = base + written;
   }
 
-  /** The bytes written so far (a view of the buffer: the writer must not be used afterwards). */
-  finish(): Uint8Array {
-    return this.bytes.subarray(0, this.used);
+  /** The bytes written, as chunks in order (views of the writer's memory: the writer must not be used afterwards). */
+  finish(): Uint8Array[] {
+    return this.used > 0 ? [...this.full, this.bytes.subarray(0, this.used)] : [...this.full];
   }
 }
 

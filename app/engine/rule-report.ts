@@ -158,7 +158,7 @@ export function ruleReportJson(scenario: Scenario, build: LineBuild, solution: R
   // `sources` is the report's last key: its text goes where the head's closing brace was.
   const close = gap === "" ? "}" : `\n${gap.repeat(depth)}}`;
   const opening = `${headText.slice(0, headText.length - close.length)}${layout.lastKeySeparator}"sources"${layout.colon}`;
-  const json = sourceBytes ? [utf8(opening), sourceBytes, utf8(close)] : [utf8(`${opening}[]${close}`)];
+  const json = sourceBytes ? [utf8(opening), ...sourceBytes, utf8(close)] : [utf8(`${opening}[]${close}`)];
   return { totalCost: report.totalCost, warnings: report.warnings, json };
 }
 
@@ -221,7 +221,8 @@ function jsonLayout(gap: string, depth: number, siteIds: readonly string[]): Jso
 
 /**
  * The report as objects, or — with a layout — with the practices' entries written as the JSON
- * array `sources` instead (`sourceBytes`, null when there are none; `report.sources` left empty).
+ * array `sources` instead (`sourceBytes`, UTF-8 chunks in order; null when there are none;
+ * `report.sources` left empty).
  * One loop for both, so the two cannot differ.
  */
 function assembleReport(
@@ -229,7 +230,7 @@ function assembleReport(
   build: LineBuild,
   solution: RuleSolution,
   layout: JsonLayout | null,
-): { report: RuleReport; sourceBytes: Uint8Array | null } {
+): { report: RuleReport; sourceBytes: Uint8Array[] | null } {
   if (solution.status === "infeasible") return { report: infeasibleReport(build, solution), sourceBytes: null };
   const writer = layout && build.problem.n > 0 ? new ByteWriter() : null;
   // A practice's flows in text form: their values (for one JSON.stringify) and their sites' keys;
