@@ -58,8 +58,8 @@ export interface FixedRuleSolution {
    * Balkers of each stream are the patients with the lowest reservation costs in that stream.
    */
   totalCost: number;
-  /** The shares a_ij (n*m, row-major) the rule assigned; rows sum to 1 or to 0 (no allowed site). */
-  shares: Float64Array;
+  /** The shares a_ij the rule assigned, source by source (`sharesArray` gives them as an n·m array). */
+  shares: FixedShares;
   overloads: FixedRuleOverload[];
   diagnostics: SolveDiagnostics;
 }
@@ -74,14 +74,30 @@ export interface FixedRuleOptions {
 const DEFAULT_OPTIONS: Required<FixedRuleOptions> = { tolerance: 1e-13, maxIterations: 200 };
 
 /**
+ * A fixed rule's shares a_ij, given source by source rather than as an n·m array: on a national
+ * instance that array is 22 MB of fresh memory per solve, and the rules need far less — nearest
+ * one site per source, capacity share one total per source (its share of site j is capacity_j
+ * over that total). The solver asks for one source's row at a time, into scratch arrays it
+ * reuses, each time it goes over the streams.
+ */
+export interface FixedShares {
+  /**
+   * Writes source i's nonzero shares and their sites, in site order, into `shares` and `sites`
+   * (room for m each) and returns how many there are. The shares sum to 1, or to 0 when the rule
+   * sends the source nowhere.
+   */
+  row(source: number, sites: Int32Array, shares: Float64Array): number;
+}
+
+/**
  * The nearest rule: each source's routine patients are all sent to the allowed site (finite
  * travel cost) with the fewest road km; ties go to the site listed first, so results are
  * stable. A source with no allowed site is sent nowhere (its patients balk, or, without an
  * outside option, the rule has no steady state for it).
  */
-export function nearestShares(problem: LineProblem): Float64Array {
+export function nearestRuleShares(problem: LineProblem): FixedShares {
   const { n, m, km, travelCost } = problem;
-  const shares = new Float64Array(n * m);
+  const nearest = new Int32Array(n);
   for (let i = 0; i < n; i++) {
     let best = -1;
     for (let j = 0; j < m; j++) {
@@ -89,9 +105,16 @@ export function nearestShares(problem: LineProblem): Float64Array {
       if (!Number.isFinite(travelCost[pair])) continue;
       if (best < 0 || km[pair] < km[i * m + best]) best = j;
     }
-    if (best >= 0) shares[i * m + best] = 1;
+    nearest[i] = best;
   }
-  return shares;
+  return {
+    row(source, sites, shares) {
+      if (nearest[source] < 0) return 0;
+      sites[0] = nearest[source];
+      shares[0] = 1;
+      return 1;
+    },
+  };
 }
 
 /**
@@ -100,28 +123,80 @@ export function nearestShares(problem: LineProblem): Float64Array {
  * teams × ratePerTeam less the urgent inflow served ahead of routine patients, i.e. the capacity
  * actually available to the patients being shared out. Sites with no routine capacity get none.
  */
-export function capacityShares(problem: LineProblem): Float64Array {
+export function capacityRuleShares(problem: LineProblem): FixedShares {
   const { n, m, travelCost, sites } = problem;
-  const shares = new Float64Array(n * m);
   const capacity = Float64Array.from(sites, (site) => Math.max(0, site.capacity));
+  // Each source's allowed capacity (in site order, as every row below divides by it).
+  const total = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     const row = i * m;
-    let total = 0;
-    for (let j = 0; j < m; j++) if (travelCost[row + j] !== Infinity && !Number.isNaN(travelCost[row + j])) total += capacity[j];
-    if (!(total > 0)) continue;
-    for (let j = 0; j < m; j++) if (travelCost[row + j] !== Infinity && !Number.isNaN(travelCost[row + j])) shares[row + j] = capacity[j] / total;
+    let sum = 0;
+    for (let j = 0; j < m; j++) if (travelCost[row + j] !== Infinity && !Number.isNaN(travelCost[row + j])) sum += capacity[j];
+    total[i] = sum;
   }
-  return shares;
+  return {
+    row(source, rowSites, rowShares) {
+      const sum = total[source];
+      if (!(sum > 0)) return 0;
+      const row = source * m;
+      let count = 0;
+      for (let j = 0; j < m; j++) {
+        const travel = travelCost[row + j];
+        if (travel === Infinity || Number.isNaN(travel) || capacity[j] === 0) continue;
+        rowSites[count] = j;
+        rowShares[count++] = capacity[j] / sum;
+      }
+      return count;
+    },
+  };
+}
+
+/** The shares given as an n·m array (row-major), e.g. by a what-if. */
+export function denseRuleShares(m: number, dense: Float64Array): FixedShares {
+  return {
+    row(source, sites, shares) {
+      let count = 0;
+      for (let j = 0; j < m; j++) {
+        const share = dense[source * m + j];
+        if (share === 0) continue;
+        sites[count] = j;
+        shares[count++] = share;
+      }
+      return count;
+    },
+  };
+}
+
+/** A rule's shares as an n·m array (row-major): for tests and display, never on the solving path. */
+export function sharesArray(n: number, m: number, shares: FixedShares): Float64Array {
+  const dense = new Float64Array(n * m);
+  const sites = new Int32Array(m);
+  const values = new Float64Array(m);
+  for (let i = 0; i < n; i++) {
+    const count = shares.row(i, sites, values);
+    for (let k = 0; k < count; k++) dense[i * m + sites[k]] = values[k];
+  }
+  return dense;
+}
+
+/** The nearest rule's shares as an n·m array (`nearestRuleShares`). */
+export function nearestShares(problem: LineProblem): Float64Array {
+  return sharesArray(problem.n, problem.m, nearestRuleShares(problem));
+}
+
+/** The capacity-share rule's shares as an n·m array (`capacityRuleShares`). */
+export function capacityShares(problem: LineProblem): Float64Array {
+  return sharesArray(problem.n, problem.m, capacityRuleShares(problem));
 }
 
 /** `nearest` with balking. */
 export function solveNearest(problem: LineProblem, options: FixedRuleOptions = {}): FixedRuleSolution {
-  return solveFixedShares(problem, nearestShares(problem), "nearest", options);
+  return solveFixedShares(problem, nearestRuleShares(problem), "nearest", options);
 }
 
 /** `capacityShare` with balking. */
 export function solveCapacityShare(problem: LineProblem, options: FixedRuleOptions = {}): FixedRuleSolution {
-  return solveFixedShares(problem, capacityShares(problem), "capacityShare", options);
+  return solveFixedShares(problem, capacityRuleShares(problem), "capacityShare", options);
 }
 
 /**
@@ -158,36 +233,106 @@ interface StreamPass {
   above: number;
 }
 
-/** Streams of one site in CSR order with their demand and the waits where their reservation range begins and ends. */
-interface SiteStreams {
-  demand: Float64Array;
-  low: Float64Array;
-  high: Float64Array;
+/** What a sweep computes for a site (`StreamSums.request`). */
+const NOTHING = 0;
+/** A pass at `wait` (`StreamPass`). */
+const PASS = 1;
+/** The patients who stay at the bracket's two ends: at `wait` ties stay, at `waitHigh` they leave. */
+const ENDS = 2;
+
+/** Per site, what the next sweep over the streams is asked for and what it sums. */
+interface StreamSums {
+  request: Uint8Array;
+  wait: Float64Array;
+  waitHigh: Float64Array;
+  /** PASS: S(wait) and its slope −B, and the interval (below, above] on which that line is exact. */
+  served: Float64Array;
+  slope: Float64Array;
+  below: Float64Array;
+  above: Float64Array;
+  /** ENDS: patients who stay at `wait` (ties stay), in `served`, and at `waitHigh` (ties leave) here. */
+  servedHigh: Float64Array;
 }
 
-/** One pass over streams first..last−1 at wait w (the patients with no outside option are not among them). */
-function passStreams(streams: SiteStreams, first: number, last: number, wait: number): StreamPass {
-  const { demand, low, high } = streams;
-  let served = 0;
-  let slope = 0;
-  let below = -Infinity;
-  let above = Infinity;
-  for (let k = first; k < last; k++) {
-    const lo = low[k];
-    const hi = high[k];
-    if (wait <= lo) {
-      // Everyone stays (at wait = lo too: the share is 1 there, and ties stay at a sharp threshold).
-      served += demand[k];
-      if (lo < above) above = lo;
-    } else if (wait < hi) {
-      const rate = demand[k] / (hi - lo);
-      served += rate * (hi - wait);
-      slope += rate;
-      if (lo > below) below = lo;
-      if (hi < above) above = hi;
-    } else if (hi > below) below = hi;
+function streamSums(m: number): StreamSums {
+  return {
+    request: new Uint8Array(m),
+    wait: new Float64Array(m),
+    waitHigh: new Float64Array(m),
+    served: new Float64Array(m),
+    slope: new Float64Array(m),
+    below: new Float64Array(m),
+    above: new Float64Array(m),
+    servedHigh: new Float64Array(m),
+  };
+}
+
+/** The rows of a fixed rule as the solver reads them: the shares, the scratch for one row, and each source's reservation range. */
+interface StreamRows {
+  shares: FixedShares;
+  sites: Int32Array;
+  values: Float64Array;
+  rangeLow: Float64Array;
+  rangeHigh: Float64Array;
+  /** Wait of each empty site: a stream whose range ends below it never stays. */
+  emptyWait: Float64Array;
+}
+
+/**
+ * One sweep over the streams that take part in the search — patients with an outside option
+ * whose range ends at or above the empty site's wait — answering every site's request at once.
+ * Going over the streams source by source reads the n·m pairs in memory order and needs no
+ * per-site copy of them (three n·m arrays on a national instance); a site's sums still add its
+ * streams in source order, as a pass over that site's streams alone would.
+ */
+function sweepStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums): void {
+  const { n, m, demand, outsideCost, travelCost } = problem;
+  const { shares, sites, values, rangeLow, rangeHigh, emptyWait } = rows;
+  const { request, wait, waitHigh, served, slope, below, above, servedHigh } = sums;
+  for (let j = 0; j < m; j++) {
+    served[j] = 0;
+    slope[j] = 0;
+    below[j] = -Infinity;
+    above[j] = Infinity;
+    servedHigh[j] = 0;
   }
-  return { wait, served, slope, below, above };
+  for (let i = 0; i < n; i++) {
+    // Patients with no outside option always stay: they are their sites' captive demand.
+    if (outsideCost[i] === Infinity || !(demand[i] > 0)) continue;
+    const count = shares.row(i, sites, values);
+    const row = i * m;
+    const sourceDemand = demand[i];
+    const sourceLow = rangeLow[i];
+    const sourceHigh = rangeHigh[i];
+    for (let k = 0; k < count; k++) {
+      const j = sites[k];
+      const kind = request[j];
+      if (kind === NOTHING) continue;
+      const stream = sourceDemand * values[k];
+      if (!(stream > 0)) continue;
+      const travel = travelCost[row + j];
+      const hi = sourceHigh - travel;
+      if (!(hi >= emptyWait[j])) continue;
+      const lo = sourceLow - travel;
+      if (kind === ENDS) {
+        served[j] += stream * streamStaying(lo, hi, wait[j], true);
+        servedHigh[j] += stream * streamStaying(lo, hi, waitHigh[j], false);
+        continue;
+      }
+      const at = wait[j];
+      if (at <= lo) {
+        // Everyone stays (at wait = lo too: the share is 1 there, and ties stay at a sharp threshold).
+        served[j] += stream;
+        if (lo < above[j]) above[j] = lo;
+      } else if (at < hi) {
+        const rate = stream / (hi - lo);
+        served[j] += rate * (hi - at);
+        slope[j] += rate;
+        if (lo > below[j]) below[j] = lo;
+        if (hi < above[j]) above[j] = hi;
+      } else if (hi > below[j]) below[j] = hi;
+    }
+  }
 }
 
 /**
@@ -226,9 +371,90 @@ function modelRoot(site: SiteWaitModel, pass: StreamPass, captive: number, low: 
   return x;
 }
 
+/** Where one site's root search ended: the bracket [low, high] on the inflow (one point when the root was found). */
+interface SiteSearch {
+  low: number;
+  high: number;
+  steps: number;
+  /** False when the bracket was still wide after `maxIterations` steps. */
+  pinned: boolean;
+}
+
 /**
- * Solves a fixed assignment with balking: `shares` (n*m) gives the share of each source's
- * demand sent to each site. Exposed so that other fixed rules (or what-ifs) can reuse it.
+ * The root search of one site, as a generator: it yields each wait at which it needs a pass over
+ * the site's streams and is resumed with that pass, so that one sweep over all streams serves
+ * every site's search at once (`solveFixedShares`).
+ *
+ * Root of g(x) = x − captive − S(W(x)), increasing in x. Invariant: g(low) ≤ 0 < g(high).
+ */
+function* searchSite(
+  site: SiteWaitModel,
+  captive: number,
+  tolerance: number,
+  maxIterations: number,
+): Generator<number, SiteSearch, StreamPass> {
+  const cap = site.capacity;
+  const waitAt = (x: number) => (x >= cap ? Infinity : site.wait(x));
+  let low = 0;
+  let high = cap;
+  let lowPass = yield waitAt(0);
+  let highPass: StreamPass | null = null;
+  let latest = lowPass;
+  let root = NaN;
+  let steps = 0;
+  let widthBefore = high - low;
+  if (low - captive - lowPass.served >= 0) root = 0;
+  // A model's root is the answer when it lies where that model is exact.
+  const exactRoot = (pass: StreamPass | null): number => {
+    if (!pass) return NaN;
+    const x = modelRoot(site, pass, captive, low, high);
+    if (Number.isNaN(x)) return NaN;
+    const wait = waitAt(x);
+    return wait > pass.below && wait <= pass.above ? x : NaN;
+  };
+  while (Number.isNaN(root) && high - low > tolerance * cap && steps < maxIterations) {
+    root = exactRoot(lowPass);
+    if (!Number.isNaN(root)) break;
+    root = exactRoot(highPass);
+    if (!Number.isNaN(root)) break;
+    if (highPass && lowPass.above === highPass.below) {
+      // Both sides are exact up to one threshold and neither has its root on its side: the
+      // root is where the wait reaches that threshold. Narrow [low, high] onto it (W only).
+      const threshold = lowPass.above;
+      for (let halvings = 0; halvings < 200; halvings++) {
+        const middle = 0.5 * (low + high);
+        if (middle <= low || middle >= high) break;
+        if (waitAt(middle) <= threshold) low = middle;
+        else high = middle;
+      }
+      break;
+    }
+    const newton: number = latest === lowPass || latest === highPass ? modelRoot(site, latest, captive, low, high) : NaN;
+    let middle: number = steps % 2 === 1 && high - low > 0.5 * widthBefore ? NaN : newton;
+    if (steps % 2 === 1) widthBefore = high - low;
+    if (!(middle > low && middle < high)) middle = 0.5 * (low + high);
+    if (middle <= low || middle >= high) break;
+    const pass: StreamPass = yield waitAt(middle);
+    const value = middle - captive - pass.served;
+    steps++;
+    latest = pass;
+    if (Math.abs(value) <= 1e-14 * cap) root = middle;
+    else if (value > 0) {
+      high = middle;
+      highPass = pass;
+    } else {
+      low = middle;
+      lowPass = pass;
+    }
+  }
+  if (!Number.isNaN(root)) return { low: root, high: root, steps, pinned: true };
+  const pinned = !(high - low > tolerance * cap * 2 && high - low > 4 * Number.EPSILON * cap);
+  return { low, high, steps, pinned };
+}
+
+/**
+ * Solves a fixed assignment with balking: `shares` gives the share of each source's demand sent
+ * to each site. Exposed so that other fixed rules (or what-ifs, `denseRuleShares`) can reuse it.
  *
  * Per site, the served demand S(w) is piecewise linear in the wait (with downward jumps at sharp
  * thresholds), so one pass over the site's streams gives S, its exact slope and the interval on
@@ -240,15 +466,16 @@ function modelRoot(site: SiteWaitModel, pass: StreamPass, captive: number, low: 
  * threshold and neither has its root on its side, the root is the threshold itself (the
  * indifferent patients split). A few passes per site, whatever the number of streams.
  *
- * Streams that cannot stay at any reachable wait (their range ends below the empty site's wait)
- * and patients without an outside option (always staying) are settled outside the passes. All n·m
- * pairs are read once, to list the streams in source order; the flows and costs are then written
- * stream by stream in that order, which keeps memory access sequential on a national instance
- * (millions of pairs) and costs one step per source for `nearest`.
+ * The sites' searches run side by side: each sweep over the streams, source by source in memory
+ * order, makes the next pass of every site still searching (`sweepStreams`). On a national
+ * instance (2.8 M streams under capacity share, one step per site) that is a handful of sweeps
+ * and no n·m array but the flows: fresh memory is what costs most there (page faults), and
+ * listing the streams per site took three n·m arrays. Patients without an outside option (always
+ * staying) are settled outside the passes; the flows and costs are written source by source.
  */
 export function solveFixedShares(
   problem: LineProblem,
-  shares: Float64Array,
+  shares: FixedShares,
   rule: FixedRuleKey,
   options: FixedRuleOptions = {},
 ): FixedRuleSolution {
@@ -274,41 +501,55 @@ export function solveFixedShares(
   }
   const capacity = Float64Array.from(sites, (site) => site.capacity);
   const emptyWait = Float64Array.from(sites, (site) => site.wait(0));
+  const rows: StreamRows = { shares, sites: new Int32Array(m), values: new Float64Array(m), rangeLow, rangeHigh, emptyWait };
 
-  // The only pass over all pairs: the streams (pairs with demand sent) in source order, and
-  // each source's total share. Every later pass goes over the streams alone — for `nearest`
-  // one per source instead of n·m pairs.
-  const { pairs, firstPair, assigned } = listStreams(n, m, demand, shares);
-  // Per site, the demand with no outside option (captive), whether any stream reaches it, and
-  // how many streams may stay at some wait (the ones the search needs).
+  // Per site, the demand with no outside option (captive) and whether any stream reaches it.
   const captive = new Float64Array(m);
   const reached = new Uint8Array(m);
-  const start = new Int32Array(m + 1);
   for (let i = 0; i < n; i++) {
-    const free = outsideCost[i] !== Infinity;
-    for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
-      const pair = pairs[k];
-      const j = pair - i * m;
+    const count = shares.row(i, rows.sites, rows.values);
+    for (let k = 0; k < count; k++) {
+      const stream = demand[i] * rows.values[k];
+      if (!(stream > 0)) continue;
+      const j = rows.sites[k];
       reached[j] = 1;
-      if (!free) captive[j] += demand[i] * shares[pair];
-      else if (rangeHigh[i] - travelCost[pair] >= emptyWait[j]) start[j + 1]++;
+      if (outsideCost[i] === Infinity) captive[j] += stream;
     }
   }
-  for (let j = 0; j < m; j++) start[j + 1] += start[j];
-  // Those streams gathered per site (CSR layout), so every search pass is contiguous.
-  const streams: SiteStreams = { demand: new Float64Array(start[m]), low: new Float64Array(start[m]), high: new Float64Array(start[m]) };
-  const fill = start.slice(0, m);
-  for (let i = 0; i < n; i++) {
-    if (outsideCost[i] === Infinity) continue;
-    for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
-      const pair = pairs[k];
-      const j = pair - i * m;
-      const high = rangeHigh[i] - travelCost[pair];
-      if (!(high >= emptyWait[j])) continue;
-      const at = fill[j]++;
-      streams.demand[at] = demand[i] * shares[pair];
-      streams.low[at] = rangeLow[i] - travelCost[pair];
-      streams.high[at] = high;
+
+  // The sites' root searches, side by side: each asks for passes at waits, and one sweep
+  // answers every request of the round.
+  const overloaded = new Uint8Array(m);
+  const searches: (Generator<number, SiteSearch, StreamPass> | null)[] = new Array(m).fill(null);
+  const outcomes: (SiteSearch | null)[] = new Array(m).fill(null);
+  const sums = streamSums(m);
+  let searching = 0;
+  const answer = (j: number, step: IteratorResult<number, SiteSearch>) => {
+    if (step.done) {
+      outcomes[j] = step.value;
+      sums.request[j] = NOTHING;
+    } else {
+      sums.request[j] = PASS;
+      sums.wait[j] = step.value;
+      searching++;
+    }
+  };
+  for (let j = 0; j < m; j++) {
+    if (captive[j] >= capacity[j] && reached[j]) {
+      overloaded[j] = 1;
+      continue;
+    }
+    const search = searchSite(sites[j], captive[j], tolerance, maxIterations);
+    searches[j] = search;
+    answer(j, search.next());
+  }
+  while (searching > 0) {
+    sweepStreams(problem, rows, sums);
+    searching = 0;
+    for (let j = 0; j < m; j++) {
+      if (sums.request[j] !== PASS) continue;
+      const pass: StreamPass = { wait: sums.wait[j], served: sums.served[j], slope: sums.slope[j], below: sums.below[j], above: sums.above[j] };
+      answer(j, (searches[j] as Generator<number, SiteSearch, StreamPass>).next(pass));
     }
   }
 
@@ -317,13 +558,10 @@ export function solveFixedShares(
   const waitLow = new Float64Array(m);
   const waitHigh = new Float64Array(m);
   const weight = new Float64Array(m);
-  const overloaded = new Uint8Array(m);
   for (let j = 0; j < m; j++) {
-    const site = sites[j];
     const cap = capacity[j];
-    const first = start[j];
-    const last = start[j + 1];
-    if (captive[j] >= cap && reached[j]) {
+    const outcome = outcomes[j];
+    if (overloaded[j] || !outcome) {
       overloads.push({ siteId: siteIds[j], demand: captive[j], capacity: cap, shortfall: captive[j] - cap });
       warnings.push(
         `No steady state under ${rule} at site "${siteIds[j]}": ${captive[j].toFixed(2)} referrals/week with no outside ` +
@@ -332,97 +570,49 @@ export function solveFixedShares(
       );
       converged = false;
       steadyState = false;
-      overloaded[j] = 1;
       siteWait[j] = Infinity;
       continue;
     }
-
-    // Root of g(x) = x − captive − S(W(x)), increasing in x. Invariant: g(low) ≤ 0 < g(high).
-    const waitAt = (x: number) => (x >= cap ? Infinity : site.wait(x));
-    let low = 0;
-    let high = cap;
-    let lowPass = passStreams(streams, first, last, waitAt(0));
-    let highPass: StreamPass | null = null;
-    let latest = lowPass;
-    let root = NaN;
-    let steps = 0;
-    let widthBefore = high - low;
-    if (low - captive[j] - lowPass.served >= 0) root = 0;
-    // A model's root is the answer when it lies where that model is exact.
-    const exactRoot = (pass: StreamPass | null): number => {
-      if (!pass) return NaN;
-      const x = modelRoot(site, pass, captive[j], low, high);
-      if (Number.isNaN(x)) return NaN;
-      const wait = waitAt(x);
-      return wait > pass.below && wait <= pass.above ? x : NaN;
-    };
-    while (Number.isNaN(root) && high - low > tolerance * cap && steps < maxIterations) {
-      root = exactRoot(lowPass);
-      if (!Number.isNaN(root)) break;
-      root = exactRoot(highPass);
-      if (!Number.isNaN(root)) break;
-      if (highPass && lowPass.above === highPass.below) {
-        // Both sides are exact up to one threshold and neither has its root on its side: the
-        // root is where the wait reaches that threshold. Narrow [low, high] onto it (W only).
-        const threshold = lowPass.above;
-        for (let halvings = 0; halvings < 200; halvings++) {
-          const middle = 0.5 * (low + high);
-          if (middle <= low || middle >= high) break;
-          if (waitAt(middle) <= threshold) low = middle;
-          else high = middle;
-        }
-        break;
-      }
-      const newton = latest === lowPass || latest === highPass ? modelRoot(site, latest, captive[j], low, high) : NaN;
-      let middle = steps % 2 === 1 && high - low > 0.5 * widthBefore ? NaN : newton;
-      if (steps % 2 === 1) widthBefore = high - low;
-      if (!(middle > low && middle < high)) middle = 0.5 * (low + high);
-      if (middle <= low || middle >= high) break;
-      const pass = passStreams(streams, first, last, waitAt(middle));
-      const value = middle - captive[j] - pass.served;
-      steps++;
-      latest = pass;
-      if (Math.abs(value) <= 1e-14 * cap) root = middle;
-      else if (value > 0) {
-        high = middle;
-        highPass = pass;
-      } else {
-        low = middle;
-        lowPass = pass;
-      }
-    }
-    iterations = Math.max(iterations, steps);
-    if (!Number.isNaN(root)) {
-      low = root;
-      high = root;
-    } else if (high - low > tolerance * cap * 2 && high - low > 4 * Number.EPSILON * cap) {
+    iterations = Math.max(iterations, outcome.steps);
+    if (!outcome.pinned) {
       converged = false;
       warnings.push(`${rule}: the inflow at site "${siteIds[j]}" was not pinned down in ${maxIterations} steps.`);
     }
-
-    // Patients served at the bracket's ends; the root lies between. A sharp threshold crossed
-    // inside the bracket is the indifferent group: only part of it stays, so interpolate
-    // between the two ends to make the inflow consistent with the bracket.
-    waitLow[j] = site.wait(low);
-    waitHigh[j] = waitAt(high);
-    const ends = servedAtEnds(streams, first, last, waitLow[j], waitHigh[j]);
-    const servedLow = captive[j] + ends.low;
-    const servedHigh = captive[j] + ends.high;
-    const target = 0.5 * (low + high);
+    waitLow[j] = sites[j].wait(outcome.low);
+    waitHigh[j] = outcome.high >= cap ? Infinity : sites[j].wait(outcome.high);
+    sums.request[j] = ENDS;
+    sums.wait[j] = waitLow[j];
+    sums.waitHigh[j] = waitHigh[j];
+  }
+  // Patients served at the bracket's ends; the root lies between. A sharp threshold crossed
+  // inside the bracket is the indifferent group: only part of it stays, so interpolate
+  // between the two ends to make the inflow consistent with the bracket.
+  sweepStreams(problem, rows, sums);
+  for (let j = 0; j < m; j++) {
+    const outcome = outcomes[j];
+    if (overloaded[j] || !outcome) continue;
+    const servedLow = captive[j] + sums.served[j];
+    const servedHigh = captive[j] + sums.servedHigh[j];
+    const target = 0.5 * (outcome.low + outcome.high);
     weight[j] = servedLow > servedHigh ? Math.min(1, Math.max(0, (target - servedHigh) / (servedLow - servedHigh))) : 0;
   }
 
-  // The flows, stream by stream in source order, from each site's final waits; sources the rule
-  // sends nowhere (no allowed site) balk, or, without an outside option, have no steady state.
+  // The flows, source by source, from each site's final waits; sources the rule sends nowhere
+  // (no allowed site) balk, or, without an outside option, have no steady state.
+  const { sites: rowSites, values: rowShares } = rows;
   for (let i = 0; i < n; i++) {
     const row = i * m;
     const low = rangeLow[i];
     const high = rangeHigh[i];
     const free = outsideCost[i] !== Infinity;
+    const count = shares.row(i, rowSites, rowShares);
+    let assigned = 0;
     let leaving = 0;
-    for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
-      const j = pairs[k] - row;
-      const stream = demand[i] * shares[row + j];
+    for (let k = 0; k < count; k++) {
+      assigned += rowShares[k];
+      const stream = demand[i] * rowShares[k];
+      if (!(stream > 0)) continue;
+      const j = rowSites[k];
       let staying: number;
       if (!free) staying = stream;
       else if (overloaded[j]) staying = 0; // patients with an outside option all leave an infinitely long queue
@@ -437,7 +627,7 @@ export function solveFixedShares(
       siteInflow[j] += staying;
     }
     balked[i] = leaving;
-    const unassigned = demand[i] * Math.max(0, 1 - assigned[i]);
+    const unassigned = demand[i] * Math.max(0, 1 - assigned);
     if (unassigned <= 1e-12 * Math.max(1, demand[i])) continue;
     if (!free) {
       converged = false;
@@ -451,7 +641,7 @@ export function solveFixedShares(
   }
   for (let j = 0; j < m; j++) if (!overloaded[j]) siteWait[j] = siteInflow[j] >= capacity[j] ? Infinity : sites[j].wait(siteInflow[j]);
 
-  const { totalCost, relativeGap } = streamsCost(problem, shares, flow, siteWait, { pairs, firstPair, assigned });
+  const { totalCost, relativeGap } = fixedRuleCost(problem, shares, flow, siteWait);
   return {
     rule,
     allocation: { flow, balked },
@@ -462,17 +652,6 @@ export function solveFixedShares(
     overloads,
     diagnostics: { converged, iterations, relativeGap: steadyState ? relativeGap : Infinity, warnings },
   };
-}
-
-/** Patients of streams first..last−1 who stay at the bracket's ends: ties stay at the lower, leave at the upper. */
-function servedAtEnds(streams: SiteStreams, first: number, last: number, waitLow: number, waitHigh: number): { low: number; high: number } {
-  let low = 0;
-  let high = 0;
-  for (let k = first; k < last; k++) {
-    low += streams.demand[k] * streamStaying(streams.low[k], streams.high[k], waitLow, true);
-    high += streams.demand[k] * streamStaying(streams.low[k], streams.high[k], waitHigh, false);
-  }
-  return { low, high };
 }
 
 /**
@@ -488,63 +667,29 @@ function servedAtEnds(streams: SiteStreams, first: number, last: number, waitLow
  */
 export function fixedRuleCost(
   problem: LineProblem,
-  shares: Float64Array,
+  shares: FixedShares,
   flow: Float64Array,
   siteWait: Float64Array,
-): { totalCost: number; relativeGap: number } {
-  return streamsCost(problem, shares, flow, siteWait, listStreams(problem.n, problem.m, problem.demand, shares));
-}
-
-/** The streams of a fixed rule: pairs with demand sent (row-major indices, in source order). */
-interface StreamList {
-  pairs: Int32Array;
-  /** Source i's streams are pairs[firstPair[i]] … pairs[firstPair[i + 1] − 1]. */
-  firstPair: Int32Array;
-  /** Σ_j shares of source i (1, or 0 when the rule sends it nowhere). */
-  assigned: Float64Array;
-}
-
-function listStreams(n: number, m: number, demand: Float64Array, shares: Float64Array): StreamList {
-  // Room for every pair; memory never written (most of it for `nearest`) is never touched.
-  const pairs = new Int32Array(n * m);
-  const firstPair = new Int32Array(n + 1);
-  const assigned = new Float64Array(n);
-  let count = 0;
-  for (let i = 0; i < n; i++) {
-    const row = i * m;
-    let total = 0;
-    for (let j = 0; j < m; j++) {
-      const share = shares[row + j];
-      total += share;
-      if (demand[i] * share > 0) pairs[count++] = row + j;
-    }
-    assigned[i] = total;
-    firstPair[i + 1] = count;
-  }
-  return { pairs, firstPair, assigned };
-}
-
-/** `fixedRuleCost` over a stream list. */
-function streamsCost(
-  problem: LineProblem,
-  shares: Float64Array,
-  flow: Float64Array,
-  siteWait: Float64Array,
-  { pairs, firstPair, assigned }: StreamList,
 ): { totalCost: number; relativeGap: number } {
   const { n, m, demand, outsideCost, outsideSpread, travelCost } = problem;
+  const rowSites = new Int32Array(m);
+  const rowShares = new Float64Array(m);
   let actual = 0;
   let best = 0;
   for (let i = 0; i < n; i++) {
     const o = outsideCost[i];
     const s = outsideSpread[i];
     const row = i * m;
+    const count = shares.row(i, rowSites, rowShares);
+    let assigned = 0;
     if (o === Infinity) {
       // No outside option: every patient stays, so the actual and the best cost are the same.
-      for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
-        const pair = pairs[k];
-        const stream = demand[i] * shares[pair];
-        const cost = siteWait[pair - row] + travelCost[pair];
+      for (let k = 0; k < count; k++) {
+        assigned += rowShares[k];
+        const stream = demand[i] * rowShares[k];
+        if (!(stream > 0)) continue;
+        const pair = row + rowSites[k];
+        const cost = siteWait[rowSites[k]] + travelCost[pair];
         const staying = flow[pair];
         actual += staying > 0 ? staying * cost : 0;
         best += stream * cost;
@@ -552,10 +697,12 @@ function streamsCost(
     } else {
       // stayingShare and balkersCost written out (a national instance has millions of streams).
       const { low, high } = reservationRange(o, s);
-      for (let k = firstPair[i]; k < firstPair[i + 1]; k++) {
-        const pair = pairs[k];
-        const stream = demand[i] * shares[pair];
-        const cost = siteWait[pair - row] + travelCost[pair];
+      for (let k = 0; k < count; k++) {
+        assigned += rowShares[k];
+        const stream = demand[i] * rowShares[k];
+        if (!(stream > 0)) continue;
+        const pair = row + rowSites[k];
+        const cost = siteWait[rowSites[k]] + travelCost[pair];
         const staying = flow[pair];
         const leaving = Math.max(0, stream - staying);
         actual += (staying > 0 ? staying * cost : 0) + streamBalkersCost(leaving, stream, low, high, o, s);
@@ -563,7 +710,7 @@ function streamsCost(
         best += (optimalStaying > 0 ? optimalStaying * cost : 0) + streamBalkersCost(stream - optimalStaying, stream, low, high, o, s);
       }
     }
-    const unassigned = demand[i] * Math.max(0, 1 - assigned[i]);
+    const unassigned = demand[i] * Math.max(0, 1 - assigned);
     if (unassigned > 0 && o !== Infinity) {
       const cost = balkersCost(unassigned, unassigned, o, s);
       actual += cost;

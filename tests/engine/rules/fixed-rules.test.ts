@@ -1,5 +1,13 @@
 import { describe, expect, it } from "vitest";
-import { capacityShares, nearestShares, solveCapacityShare, solveNearest } from "~/engine/fixed-rules";
+import {
+  capacityShares,
+  denseRuleShares,
+  nearestShares,
+  sharesArray,
+  solveCapacityShare,
+  solveFixedShares,
+  solveNearest,
+} from "~/engine/fixed-rules";
 import { lineProblem, mmcSite, mmcWait, randomProblem } from "./rules-support";
 
 describe("nearest with balking: one M/M/1 site", () => {
@@ -207,11 +215,12 @@ describe("properties of the fixed rules on random instances", () => {
           expect(result.diagnostics.converged).toBe(true);
           expect(result.diagnostics.relativeGap).toBeLessThan(1e-8);
           const { n, m } = problem;
+          const shares = sharesArray(n, m, result.shares);
           for (let i = 0; i < n; i++) {
             const o = problem.outsideCost[i];
             const s = problem.outsideSpread[i];
             for (let j = 0; j < m; j++) {
-              const stream = problem.demand[i] * result.shares[i * m + j];
+              const stream = problem.demand[i] * shares[i * m + j];
               if (stream === 0) continue;
               const staying = result.allocation.flow[i * m + j];
               const cost = result.siteWait[j] + problem.travelCost[i * m + j];
@@ -249,10 +258,11 @@ describe("properties of the fixed rules on random instances", () => {
       expect(result.diagnostics.converged).toBe(true);
       expect(result.diagnostics.relativeGap).toBeLessThan(1e-8);
       const { n, m } = problem;
+      const shares = sharesArray(n, m, result.shares);
       for (let j = 0; j < m; j++) {
         let inflow = 0;
         for (let i = 0; i < n; i++) {
-          const stream = problem.demand[i] * result.shares[i * m + j];
+          const stream = problem.demand[i] * shares[i * m + j];
           const staying = result.allocation.flow[i * m + j];
           const cost = result.siteWait[j] + problem.travelCost[i * m + j];
           const o = problem.outsideCost[i];
@@ -279,4 +289,29 @@ describe("properties of the fixed rules on random instances", () => {
       }
     }
   });
+
+  // The solver reads a rule's shares row by row; an n·m array of the same shares (a what-if's
+  // form) must give the very same solution. Some pairs are not allowed, and one practice has no
+  // allowed site at all: its patients balk (no steady state when it has no outside option).
+  for (const seed of [41, 42]) {
+    it(`seed ${seed}: shares given as an n·m array solve exactly as the rule's own rows`, () => {
+      const base = randomProblem(seed, 40, 6, { spread: seed === 42, captiveShare: 0.2 });
+      const travelCost = base.travelCost.map((cost, pair) => (pair % 7 === 3 || Math.floor(pair / base.m) === 5 ? Infinity : cost));
+      const problem = { ...base, travelCost, outsideCost: base.outsideCost.map((o, i) => (i === 5 ? 2 : o)) };
+      for (const [rule, solve, dense] of [
+        ["nearest", solveNearest, nearestShares],
+        ["capacityShare", solveCapacityShare, capacityShares],
+      ] as const) {
+        const own = solve(problem);
+        const fromArray = solveFixedShares(problem, denseRuleShares(problem.m, dense(problem)), rule);
+        expect(Array.from(fromArray.allocation.flow)).toEqual(Array.from(own.allocation.flow));
+        expect(Array.from(fromArray.allocation.balked)).toEqual(Array.from(own.allocation.balked));
+        expect(Array.from(fromArray.siteWait)).toEqual(Array.from(own.siteWait));
+        expect(fromArray.totalCost).toBe(own.totalCost);
+        expect(sharesArray(problem.n, problem.m, own.shares)).toEqual(dense(problem));
+        // The practice with no allowed site is sent nowhere: all its patients balk.
+        expect(own.allocation.balked[5]).toBeCloseTo(problem.demand[5], 12);
+      }
+    });
+  }
 });
