@@ -584,49 +584,36 @@ export function solveFixedShares(
     sums.wait[j] = waitLow[j];
     sums.waitHigh[j] = waitHigh[j];
   }
-  // Patients served at the bracket's ends; the root lies between. A sharp threshold crossed
-  // inside the bracket is the indifferent group: only part of it stays, so interpolate
-  // between the two ends to make the inflow consistent with the bracket.
-  sweepStreams(problem, rows, sums);
-  for (let j = 0; j < m; j++) {
-    const outcome = outcomes[j];
-    if (overloaded[j] || !outcome) continue;
-    const servedLow = captive[j] + sums.served[j];
-    const servedHigh = captive[j] + sums.servedHigh[j];
-    const target = 0.5 * (outcome.low + outcome.high);
-    weight[j] = servedLow > servedHigh ? Math.min(1, Math.max(0, (target - servedHigh) / (servedLow - servedHigh))) : 0;
+
+  // The flows, source by source, from each site's final waits. The indifferent patients' share
+  // (`weight`) only matters for streams whose patients at the bracket's two ends differ — a
+  // bracket left wide, or ties at a sharp threshold. Usually there are none (each root is found
+  // exactly), so the flows are written first as if every weight were 0, which is then exact, and
+  // only when such a stream turns up are the weights worked out (a sweep more) and the flows
+  // written again.
+  const flows: FlowWriting = { flow, siteInflow, balked, assigned: new Float64Array(n), overloaded, waitLow, waitHigh, weight };
+  if (!writeFlows(problem, rows, flows, true)) {
+    // Patients served at the bracket's ends; the root lies between. A sharp threshold crossed
+    // inside the bracket is the indifferent group: only part of it stays, so interpolate
+    // between the two ends to make the inflow consistent with the bracket.
+    sweepStreams(problem, rows, sums);
+    for (let j = 0; j < m; j++) {
+      const outcome = outcomes[j];
+      if (overloaded[j] || !outcome) continue;
+      const servedLow = captive[j] + sums.served[j];
+      const servedHigh = captive[j] + sums.servedHigh[j];
+      const target = 0.5 * (outcome.low + outcome.high);
+      weight[j] = servedLow > servedHigh ? Math.min(1, Math.max(0, (target - servedHigh) / (servedLow - servedHigh))) : 0;
+    }
+    siteInflow.fill(0);
+    writeFlows(problem, rows, flows, false);
   }
 
-  // The flows, source by source, from each site's final waits; sources the rule sends nowhere
-  // (no allowed site) balk, or, without an outside option, have no steady state.
-  const { sites: rowSites, values: rowShares } = rows;
+  // Sources the rule sends nowhere (no allowed site) balk, or, without an outside option, have
+  // no steady state.
   for (let i = 0; i < n; i++) {
-    const row = i * m;
-    const low = rangeLow[i];
-    const high = rangeHigh[i];
     const free = outsideCost[i] !== Infinity;
-    const count = shares.row(i, rowSites, rowShares);
-    let assigned = 0;
-    let leaving = 0;
-    for (let k = 0; k < count; k++) {
-      assigned += rowShares[k];
-      const stream = demand[i] * rowShares[k];
-      if (!(stream > 0)) continue;
-      const j = rowSites[k];
-      let staying: number;
-      if (!free) staying = stream;
-      else if (overloaded[j]) staying = 0; // patients with an outside option all leave an infinitely long queue
-      else {
-        const travel = travelCost[row + j];
-        const stayHigh = streamStaying(low - travel, high - travel, waitHigh[j], false);
-        const stayLow = streamStaying(low - travel, high - travel, waitLow[j], true);
-        staying = stream * (stayHigh + weight[j] * (stayLow - stayHigh));
-      }
-      flow[row + j] = staying;
-      leaving += stream - staying;
-      siteInflow[j] += staying;
-    }
-    balked[i] = leaving;
+    const assigned = flows.assigned[i];
     const unassigned = demand[i] * Math.max(0, 1 - assigned);
     if (unassigned <= 1e-12 * Math.max(1, demand[i])) continue;
     if (!free) {
@@ -652,6 +639,61 @@ export function solveFixedShares(
     overloads,
     diagnostics: { converged, iterations, relativeGap: steadyState ? relativeGap : Infinity, warnings },
   };
+}
+
+/** What `writeFlows` reads (final waits, weights) and writes (flows, inflows, balking, each source's total share). */
+interface FlowWriting {
+  flow: Float64Array;
+  siteInflow: Float64Array;
+  balked: Float64Array;
+  assigned: Float64Array;
+  overloaded: Uint8Array;
+  waitLow: Float64Array;
+  waitHigh: Float64Array;
+  weight: Float64Array;
+}
+
+/**
+ * Every stream's patients who stay, source by source, and the sums of those (site inflows, each
+ * source's patients who leave, `siteInflow` starting at 0). With `stopAtDifference` it gives up
+ * (false) at the first stream whose patients at the bracket's two ends differ, where the weight
+ * of the indifferent patients matters: flows written so far are then to be written again.
+ */
+function writeFlows(problem: LineProblem, rows: StreamRows, writing: FlowWriting, stopAtDifference: boolean): boolean {
+  const { n, m, demand, outsideCost, travelCost } = problem;
+  const { shares, sites: rowSites, values: rowShares, rangeLow, rangeHigh } = rows;
+  const { flow, siteInflow, balked, assigned, overloaded, waitLow, waitHigh, weight } = writing;
+  for (let i = 0; i < n; i++) {
+    const row = i * m;
+    const low = rangeLow[i];
+    const high = rangeHigh[i];
+    const free = outsideCost[i] !== Infinity;
+    const count = shares.row(i, rowSites, rowShares);
+    let total = 0;
+    let leaving = 0;
+    for (let k = 0; k < count; k++) {
+      total += rowShares[k];
+      const stream = demand[i] * rowShares[k];
+      if (!(stream > 0)) continue;
+      const j = rowSites[k];
+      let staying: number;
+      if (!free) staying = stream;
+      else if (overloaded[j]) staying = 0; // patients with an outside option all leave an infinitely long queue
+      else {
+        const travel = travelCost[row + j];
+        const stayHigh = streamStaying(low - travel, high - travel, waitHigh[j], false);
+        const stayLow = streamStaying(low - travel, high - travel, waitLow[j], true);
+        if (stopAtDifference && stayLow !== stayHigh) return false;
+        staying = stream * (stayHigh + weight[j] * (stayLow - stayHigh));
+      }
+      flow[row + j] = staying;
+      leaving += stream - staying;
+      siteInflow[j] += staying;
+    }
+    assigned[i] = total;
+    balked[i] = leaving;
+  }
+  return true;
 }
 
 /**
