@@ -224,8 +224,7 @@ export function buildLineProblem(scenario: Scenario, lineId: string, period?: Sc
     );
     distances?.set(lineId, km);
   }
-  const travelCost = new Float64Array(n * m);
-  for (let pair = 0; pair < n * m; pair++) travelCost[pair] = km[pair] / scenario.kmPerWeek;
+  const travelCost = travelCostOf(km, scenario.kmPerWeek);
 
   const demand = new Float64Array(n);
   const outsideCost = new Float64Array(n);
@@ -323,6 +322,28 @@ export function buildLineProblem(scenario: Scenario, lineId: string, period?: Sc
     fullCapacity,
     shortfalls,
   };
+}
+
+/** Travel cost per pair of each km array, for the κ it was computed with. */
+const travelCosts = new WeakMap<Float64Array, { kmPerWeek: number; travelCost: Float64Array }>();
+
+/**
+ * Travel cost km / κ (weeks-equivalent) of every pair of a line's road km, computed once per km
+ * array and κ: the periods of a scenario and the rules solved on one thread share it, and with it
+ * everything the solvers cache per travel-cost array (the nearest-site lists). Never modified.
+ */
+export function travelCostOf(km: Float64Array, kmPerWeek: number): Float64Array {
+  const known = travelCosts.get(km);
+  if (known && known.kmPerWeek === kmPerWeek) return known.travelCost;
+  const travelCost = new Float64Array(km.length);
+  for (let pair = 0; pair < km.length; pair++) travelCost[pair] = km[pair] / kmPerWeek;
+  rememberTravelCost(km, kmPerWeek, travelCost);
+  return travelCost;
+}
+
+/** Records a travel cost computed elsewhere (by both command-line threads, in shared memory) for `travelCostOf`. */
+export function rememberTravelCost(km: Float64Array, kmPerWeek: number, travelCost: Float64Array): void {
+  travelCosts.set(km, { kmPerWeek, travelCost });
 }
 
 /** The site with the fewest km from source i; ties go to the site listed first. */

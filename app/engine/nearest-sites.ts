@@ -39,13 +39,31 @@ export const NEAREST_LIST_SIZE = 48;
 export function nearestSites(pairCost: Float64Array, n: number, m: number): NearestSites {
   const cached = cache.get(pairCost);
   if (cached) return cached;
+  const lists = allocateLists(n, m, (length) => new ArrayBuffer(length));
+  fillLists(lists, pairCost, m, 0, n);
+  return rememberLists(pairCost, lists);
+}
+
+/** The parts of the lists that `fillLists` writes, row by row. */
+export type ListRows = Pick<NearestSites, "sites" | "costs" | "count" | "bound" | "perSource">;
+
+/** Empty lists for n sources, in memory from `allocate` (shared between threads, say). */
+export function allocateLists(n: number, m: number, allocate: (bytes: number) => ArrayBufferLike): ListRows {
   const perSource = Math.min(m, NEAREST_LIST_SIZE);
-  const sites = new Int32Array(n * perSource);
-  const costs = new Float64Array(n * perSource);
-  const count = new Int32Array(n);
-  const bound = new Float64Array(n);
+  return {
+    sites: new Int32Array(allocate(Math.max(1, n * perSource) * 4)),
+    costs: new Float64Array(allocate(Math.max(1, n * perSource) * 8)),
+    count: new Int32Array(allocate(Math.max(1, n) * 4)),
+    bound: new Float64Array(allocate(Math.max(1, n) * 8)),
+    perSource,
+  };
+}
+
+/** Writes the lists of sources from..to−1 (each row is independent of the others). */
+export function fillLists(lists: ListRows, pairCost: Float64Array, m: number, from: number, to: number): void {
+  const { sites, costs, count, bound, perSource } = lists;
   const scratch = new Float64Array(m);
-  for (let i = 0; i < n; i++) {
+  for (let i = from; i < to; i++) {
     const row = i * m;
     let allowed = 0;
     for (let j = 0; j < m; j++) if (pairCost[row + j] < Infinity) scratch[allowed++] = pairCost[row + j];
@@ -66,12 +84,13 @@ export function nearestSites(pairCost: Float64Array, n: number, m: number): Near
     bound[i] = threshold;
     sortList(sites, costs, pairCost, row, base, k);
   }
+}
+
+/** Makes `lists` (all rows written) the cached lists of `pairCost` in this thread. */
+export function rememberLists(pairCost: Float64Array, lists: ListRows): NearestSites {
+  const n = lists.count.length;
   const result: NearestSites = {
-    sites,
-    costs,
-    count,
-    bound,
-    perSource,
+    ...lists,
     rowStart: new Int32Array(n).fill(-1),
     rowCount: new Int32Array(n),
     rowSites: new Int32Array(0),

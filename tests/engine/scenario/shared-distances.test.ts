@@ -2,11 +2,13 @@
  * Road km computed in chunks that the command line's two threads share (`shared-distances.ts`)
  * must be exactly `lineDistances` — the haversine of `pairKm` (Sinnott 1984, "Virtues of the
  * haversine", Sky & Telescope 68(2):159) × circuity, or the uploaded km — whoever writes which
- * chunk, and even when a chunk taken by the other thread is never written.
+ * chunk, and even when a chunk taken by the other thread is never written. The travel costs and
+ * nearest-site lists written beside them must be what each thread would have computed alone.
  */
 import { readFileSync } from "node:fs";
 import { describe, expect, it } from "vitest";
-import { lineDistances } from "~/engine/build-problem";
+import { buildLineProblems, lineDistances } from "~/engine/build-problem";
+import { nearestSites } from "~/engine/nearest-sites";
 import { parseScenario } from "~/engine/scenario";
 import { computeSharedDistances, distanceWork } from "~/engine/shared-distances";
 import { generateScenarioDocument, LARGE } from "../../bench/generate";
@@ -24,6 +26,22 @@ describe("road km computed in shared chunks", () => {
       for (const [lineId, km] of expected) expect(Array.from(shared.get(lineId) as Float64Array)).toEqual(Array.from(km));
     });
   }
+
+  it("the problems built on the shared km use the shared travel costs and nearest-site lists, equal to their own", () => {
+    for (const scenario of [demo, region]) {
+      const work = distanceWork(scenario);
+      const shared = computeSharedDistances(scenario, work);
+      for (const { lineId, problem } of buildLineProblems(scenario, undefined, shared)) {
+        const { travelCost, lists } = work.travel.get(lineId) as NonNullable<ReturnType<typeof work.travel.get>>;
+        expect(problem.travelCost).toBe(travelCost);
+        expect(Array.from(problem.travelCost)).toEqual(Array.from(problem.km, (km) => km / scenario.kmPerWeek));
+        const own = nearestSites(problem.travelCost.slice(), problem.n, problem.m);
+        const used = nearestSites(problem.travelCost, problem.n, problem.m);
+        expect(used.sites).toBe(lists.sites);
+        for (const key of ["sites", "costs", "count", "bound"] as const) expect(Array.from(used[key])).toEqual(Array.from(own[key]));
+      }
+    }
+  });
 
   it("a thread arriving after every chunk is written takes none and gets the same km", () => {
     const work = distanceWork(region);
