@@ -278,14 +278,21 @@ interface StreamRows {
   emptyWait: Float64Array;
 }
 
+/** Per site, the demand with no outside option (captive) and whether any stream reaches it. */
+interface StreamCensus {
+  captive: Float64Array;
+  reached: Uint8Array;
+}
+
 /**
  * One sweep over the streams that take part in the search — patients with an outside option
  * whose range ends at or above the empty site's wait — answering every site's request at once.
  * Going over the streams source by source reads the n·m pairs in memory order and needs no
  * per-site copy of them (three n·m arrays on a national instance); a site's sums still add its
- * streams in source order, as a pass over that site's streams alone would.
+ * streams in source order, as a pass over that site's streams alone would. With `census` (the
+ * first sweep) it also sums every site's captive demand and marks the sites any stream reaches.
  */
-function sweepStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums): void {
+function sweepStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums, census: StreamCensus | null = null): void {
   const { n, m, demand, outsideCost, travelCost } = problem;
   const { shares, sites, values, rangeLow, rangeHigh, emptyWait } = rows;
   const { request, wait, waitHigh, served, slope, below, above, servedHigh } = sums;
@@ -298,7 +305,8 @@ function sweepStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums):
   }
   for (let i = 0; i < n; i++) {
     // Patients with no outside option always stay: they are their sites' captive demand.
-    if (outsideCost[i] === Infinity || !(demand[i] > 0)) continue;
+    const captiveSource = outsideCost[i] === Infinity;
+    if ((captiveSource && !census) || !(demand[i] > 0)) continue;
     const count = shares.row(i, sites, values);
     const row = i * m;
     const sourceDemand = demand[i];
@@ -306,10 +314,17 @@ function sweepStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums):
     const sourceHigh = rangeHigh[i];
     for (let k = 0; k < count; k++) {
       const j = sites[k];
-      const kind = request[j];
-      if (kind === NOTHING) continue;
       const stream = sourceDemand * values[k];
       if (!(stream > 0)) continue;
+      if (census) {
+        census.reached[j] = 1;
+        if (captiveSource) {
+          census.captive[j] += stream;
+          continue;
+        }
+      }
+      const kind = request[j];
+      if (kind === NOTHING) continue;
       const travel = travelCost[row + j];
       const hi = sourceHigh - travel;
       if (!(hi >= emptyWait[j])) continue;
@@ -503,26 +518,21 @@ export function solveFixedShares(
   const emptyWait = Float64Array.from(sites, (site) => site.wait(0));
   const rows: StreamRows = { shares, sites: new Int32Array(m), values: new Float64Array(m), rangeLow, rangeHigh, emptyWait };
 
-  // Per site, the demand with no outside option (captive) and whether any stream reaches it.
+  // The sites' root searches, side by side: each asks for passes at waits, and one sweep
+  // answers every request of the round. Every search's first pass is at the empty site's wait,
+  // made by the first sweep for all sites together with each site's captive demand (which says
+  // which sites are overloaded and never searched).
   const captive = new Float64Array(m);
   const reached = new Uint8Array(m);
-  for (let i = 0; i < n; i++) {
-    const count = shares.row(i, rows.sites, rows.values);
-    for (let k = 0; k < count; k++) {
-      const stream = demand[i] * rows.values[k];
-      if (!(stream > 0)) continue;
-      const j = rows.sites[k];
-      reached[j] = 1;
-      if (outsideCost[i] === Infinity) captive[j] += stream;
-    }
+  const sums = streamSums(m);
+  for (let j = 0; j < m; j++) {
+    sums.request[j] = PASS;
+    sums.wait[j] = 0 >= capacity[j] ? Infinity : emptyWait[j];
   }
-
-  // The sites' root searches, side by side: each asks for passes at waits, and one sweep
-  // answers every request of the round.
+  sweepStreams(problem, rows, sums, { captive, reached });
   const overloaded = new Uint8Array(m);
   const searches: (Generator<number, SiteSearch, StreamPass> | null)[] = new Array(m).fill(null);
   const outcomes: (SiteSearch | null)[] = new Array(m).fill(null);
-  const sums = streamSums(m);
   let searching = 0;
   const answer = (j: number, step: IteratorResult<number, SiteSearch>) => {
     if (step.done) {
@@ -534,22 +544,26 @@ export function solveFixedShares(
       searching++;
     }
   };
+  const passMade = (j: number): StreamPass => ({ wait: sums.wait[j], served: sums.served[j], slope: sums.slope[j], below: sums.below[j], above: sums.above[j] });
   for (let j = 0; j < m; j++) {
     if (captive[j] >= capacity[j] && reached[j]) {
       overloaded[j] = 1;
+      sums.request[j] = NOTHING;
       continue;
     }
     const search = searchSite(sites[j], captive[j], tolerance, maxIterations);
     searches[j] = search;
-    answer(j, search.next());
+    let step = search.next();
+    // The first sweep's pass is the one asked for (the same wait): no sweep again for it.
+    if (!step.done && Object.is(step.value, sums.wait[j])) step = search.next(passMade(j));
+    answer(j, step);
   }
   while (searching > 0) {
     sweepStreams(problem, rows, sums);
     searching = 0;
     for (let j = 0; j < m; j++) {
       if (sums.request[j] !== PASS) continue;
-      const pass: StreamPass = { wait: sums.wait[j], served: sums.served[j], slope: sums.slope[j], below: sums.below[j], above: sums.above[j] };
-      answer(j, (searches[j] as Generator<number, SiteSearch, StreamPass>).next(pass));
+      answer(j, (searches[j] as Generator<number, SiteSearch, StreamPass>).next(passMade(j)));
     }
   }
 
