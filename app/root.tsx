@@ -6,6 +6,8 @@ import "@fontsource/noto-sans/latin-700.css";
 import "./app.css";
 import { PlanningCautions } from "./components/planning-cautions";
 
+export const links: Route.LinksFunction = () => [{ rel: "icon", href: "/favicon.svg", type: "image/svg+xml" }];
+
 export function Layout({ children }: { children: React.ReactNode }) {
   return (
     <html lang="en-GB">
