@@ -246,8 +246,7 @@ function assembleReport(
   const allocation = solution.allocation;
   const warnings = [...solution.diagnostics.warnings];
 
-  const routineInflow = new Float64Array(m);
-  for (let i = 0; i < n; i++) for (let j = 0; j < m; j++) routineInflow[j] += allocation.flow[i * m + j];
+  const routineInflow = columnSums(allocation.flow, n, m);
 
   const siteWaitUrgent = new Float64Array(m);
   const siteWaitRoutine = new Float64Array(m);
@@ -298,6 +297,8 @@ function assembleReport(
   });
 
   let balked = 0;
+  const pairs: PairArrays = { m, routineFlow: allocation.flow, km: problem.km, travelCost: problem.travelCost, siteWaitRoutine, siteWaitUrgent };
+  const reported: ReportedFlows = { sites: new Int32Array(m), flows: new Float64Array(m), totals: new Float64Array(4) };
   const sources: SourceReport[] = [];
   const sourceCosts: { cost: number; demand: number; decile: number | null; balked: number; wait: number; km: number; served: number }[] = [];
   for (let i = 0; i < n; i++) {
@@ -308,16 +309,14 @@ function assembleReport(
     flowPairs.length = 0;
     flowKeyLengths.length = 0;
     flowKeyExtraBytes.length = 0;
-    let sourceServed = 0;
-    let sourceWait = 0;
-    let sourceKm = 0;
-    let sourceCost = 0;
-    for (let j = 0; j < m; j++) {
-      const pair = i * m + j;
-      const routine = allocation.flow[pair];
-      const urgent = urgentSite[i] === j ? urgentDemand[i] : 0;
-      const flow = routine + urgent;
-      if (flow <= FLOW_REPORT_THRESHOLD) continue;
+    const count = reportedFlows(pairs, i, urgentSite[i], urgentDemand[i], reported);
+    const sourceServed = reported.totals[0];
+    const sourceKm = reported.totals[1];
+    const sourceWait = reported.totals[2];
+    let sourceCost = reported.totals[3];
+    for (let k = 0; k < count; k++) {
+      const j = reported.sites[k];
+      const flow = reported.flows[k];
       if (layout?.compact) {
         flowPairs.push(problem.siteIds[j], flow);
         if (!layout.compact.plain) {
@@ -329,16 +328,6 @@ function assembleReport(
         flowKeys.push(layout.siteKeys[j]);
       } else {
         flows[problem.siteIds[j]] = flow;
-      }
-      sourceServed += flow;
-      sourceKm += flow * problem.km[pair];
-      if (routine > 0) {
-        sourceWait += routine * siteWaitRoutine[j];
-        sourceCost += routine * (siteWaitRoutine[j] + problem.travelCost[pair]);
-      }
-      if (urgent > 0) {
-        sourceWait += urgent * siteWaitUrgent[j];
-        sourceCost += urgent * (siteWaitUrgent[j] + problem.travelCost[pair]);
       }
     }
     const sourceBalked = allocation.balked[i];
@@ -412,6 +401,76 @@ function assembleReport(
   };
   if (layout && writer) writer.text(`${layout.fieldsClose}${layout.rowsClose}`);
   return { report, sourceBytes: writer ? writer.finish() : null };
+}
+
+/*
+ * The loops over all n·m pairs are functions of their own: a report is written once or twice per
+ * thread, so its code runs mostly unoptimised, and a small loop is optimised at once (on the
+ * stack) and stays so, while the same loop inside the report's long function was optimised and
+ * thrown back several times on its first run (the code after the loop had not run yet).
+ */
+
+/** Σ_i flow[i·m + j] for every site j (summed in source order). */
+function columnSums(flow: Float64Array, n: number, m: number): Float64Array {
+  const sums = new Float64Array(m);
+  for (let i = 0; i < n; i++) {
+    const row = i * m;
+    for (let j = 0; j < m; j++) sums[j] += flow[row + j];
+  }
+  return sums;
+}
+
+/** What a report reads pair by pair: routine flows, km and travel costs (n·m), and each site's waits. */
+interface PairArrays {
+  m: number;
+  routineFlow: Float64Array;
+  km: Float64Array;
+  travelCost: Float64Array;
+  siteWaitRoutine: Float64Array;
+  siteWaitUrgent: Float64Array;
+}
+
+/** A source's flows above the report threshold (routine + urgent), in site order, and their totals. */
+interface ReportedFlows {
+  sites: Int32Array;
+  flows: Float64Array;
+  /** Referrals served, × km, × wait, × (wait + travel cost): the source's sums over those flows. */
+  totals: Float64Array;
+}
+
+/** Fills `reported` with source i's flows above FLOW_REPORT_THRESHOLD and their totals; returns how many. */
+function reportedFlows(pairs: PairArrays, i: number, urgentSite: number, urgentDemand: number, reported: ReportedFlows): number {
+  const { m, routineFlow, km, travelCost, siteWaitRoutine, siteWaitUrgent } = pairs;
+  const { sites, flows, totals } = reported;
+  let served = 0;
+  let servedKm = 0;
+  let wait = 0;
+  let cost = 0;
+  let count = 0;
+  for (let j = 0; j < m; j++) {
+    const pair = i * m + j;
+    const routine = routineFlow[pair];
+    const urgent = urgentSite === j ? urgentDemand : 0;
+    const flow = routine + urgent;
+    if (flow <= FLOW_REPORT_THRESHOLD) continue;
+    sites[count] = j;
+    flows[count++] = flow;
+    served += flow;
+    servedKm += flow * km[pair];
+    if (routine > 0) {
+      wait += routine * siteWaitRoutine[j];
+      cost += routine * (siteWaitRoutine[j] + travelCost[pair]);
+    }
+    if (urgent > 0) {
+      wait += urgent * siteWaitUrgent[j];
+      cost += urgent * (siteWaitUrgent[j] + travelCost[pair]);
+    }
+  }
+  totals[0] = served;
+  totals[1] = servedKm;
+  totals[2] = wait;
+  totals[3] = cost;
+  return count;
 }
 
 /** A plan whose constraints cannot all hold: the reasons, and no allocation at all. */
