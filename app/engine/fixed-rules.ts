@@ -278,10 +278,11 @@ interface StreamRows {
   emptyWait: Float64Array;
 }
 
-/** Per site, the demand with no outside option (captive) and whether any stream reaches it. */
+/** Per site, the demand with no outside option (captive), whether any stream reaches it, and how many streams take part in its search. */
 interface StreamCensus {
   captive: Float64Array;
   reached: Uint8Array;
+  searched: Int32Array;
 }
 
 /**
@@ -290,7 +291,8 @@ interface StreamCensus {
  * Going over the streams source by source reads the n·m pairs in memory order and needs no
  * per-site copy of them (three n·m arrays on a national instance); a site's sums still add its
  * streams in source order, as a pass over that site's streams alone would. With `census` (the
- * first sweep) it also sums every site's captive demand and marks the sites any stream reaches.
+ * first sweep, which every site asks for) it also sums every site's captive demand, marks the
+ * sites any stream reaches and counts each site's streams.
  */
 function sweepStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums, census: StreamCensus | null = null): void {
   const { n, m, demand, outsideCost, travelCost } = problem;
@@ -328,6 +330,7 @@ function sweepStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums, 
       const travel = travelCost[row + j];
       const hi = sourceHigh - travel;
       if (!(hi >= emptyWait[j])) continue;
+      if (census) census.searched[j]++;
       const lo = sourceLow - travel;
       if (kind === ENDS) {
         served[j] += stream * streamStaying(lo, hi, wait[j], true);
@@ -347,6 +350,82 @@ function sweepStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums, 
         if (hi < above[j]) above[j] = hi;
       } else if (hi > below[j]) below[j] = hi;
     }
+  }
+}
+
+/** Some sites' streams copied site by site (CSR), each site's in source order; other sites' ranges are empty. */
+interface GatheredStreams {
+  start: Int32Array;
+  demand: Float64Array;
+  low: Float64Array;
+  high: Float64Array;
+}
+
+/**
+ * The streams of the sites asking for a pass, gathered per site by one sweep (`searched` counts
+ * each site's streams). When few sites are still searching, a sweep over all streams costs far
+ * more than passes over theirs alone: a site whose search needs many steps (a bisection) would
+ * otherwise make every round a sweep over all n·m pairs.
+ */
+function gatherStreams(problem: LineProblem, rows: StreamRows, sums: StreamSums, searched: Int32Array): GatheredStreams {
+  const { n, m, demand, outsideCost, travelCost } = problem;
+  const { shares, sites, values, rangeLow, rangeHigh, emptyWait } = rows;
+  const { request } = sums;
+  const start = new Int32Array(m + 1);
+  for (let j = 0; j < m; j++) start[j + 1] = start[j] + (request[j] === PASS ? searched[j] : 0);
+  const gathered: GatheredStreams = { start, demand: new Float64Array(start[m]), low: new Float64Array(start[m]), high: new Float64Array(start[m]) };
+  const fill = start.slice(0, m);
+  for (let i = 0; i < n; i++) {
+    if (outsideCost[i] === Infinity || !(demand[i] > 0)) continue;
+    const count = shares.row(i, sites, values);
+    const row = i * m;
+    for (let k = 0; k < count; k++) {
+      const j = sites[k];
+      if (request[j] !== PASS) continue;
+      const stream = demand[i] * values[k];
+      if (!(stream > 0)) continue;
+      const travel = travelCost[row + j];
+      const hi = rangeHigh[i] - travel;
+      if (!(hi >= emptyWait[j])) continue;
+      const at = fill[j]++;
+      gathered.demand[at] = stream;
+      gathered.low[at] = rangeLow[i] - travel;
+      gathered.high[at] = hi;
+    }
+  }
+  return gathered;
+}
+
+/** `sweepStreams`' passes for the sites asking for one, over their gathered streams (the same sums in the same order). */
+function passGathered(gathered: GatheredStreams, sums: StreamSums): void {
+  const { start, demand, low, high } = gathered;
+  const { request, wait, served, slope, below, above } = sums;
+  for (let j = 0; j < request.length; j++) {
+    if (request[j] !== PASS) continue;
+    const at = wait[j];
+    let siteServed = 0;
+    let siteSlope = 0;
+    let siteBelow = -Infinity;
+    let siteAbove = Infinity;
+    for (let k = start[j]; k < start[j + 1]; k++) {
+      const stream = demand[k];
+      const lo = low[k];
+      const hi = high[k];
+      if (at <= lo) {
+        siteServed += stream;
+        if (lo < siteAbove) siteAbove = lo;
+      } else if (at < hi) {
+        const rate = stream / (hi - lo);
+        siteServed += rate * (hi - at);
+        siteSlope += rate;
+        if (lo > siteBelow) siteBelow = lo;
+        if (hi < siteAbove) siteAbove = hi;
+      } else if (hi > siteBelow) siteBelow = hi;
+    }
+    served[j] = siteServed;
+    slope[j] = siteSlope;
+    below[j] = siteBelow;
+    above[j] = siteAbove;
   }
 }
 
@@ -524,12 +603,15 @@ export function solveFixedShares(
   // which sites are overloaded and never searched).
   const captive = new Float64Array(m);
   const reached = new Uint8Array(m);
+  const searched = new Int32Array(m);
   const sums = streamSums(m);
   for (let j = 0; j < m; j++) {
     sums.request[j] = PASS;
     sums.wait[j] = 0 >= capacity[j] ? Infinity : emptyWait[j];
   }
-  sweepStreams(problem, rows, sums, { captive, reached });
+  sweepStreams(problem, rows, sums, { captive, reached, searched });
+  let allStreams = 0;
+  for (let j = 0; j < m; j++) allStreams += searched[j];
   const overloaded = new Uint8Array(m);
   const searches: (Generator<number, SiteSearch, StreamPass> | null)[] = new Array(m).fill(null);
   const outcomes: (SiteSearch | null)[] = new Array(m).fill(null);
@@ -558,8 +640,17 @@ export function solveFixedShares(
     if (!step.done && Object.is(step.value, sums.wait[j])) step = search.next(passMade(j));
     answer(j, step);
   }
+  // Once the sites still searching hold under a quarter of the streams, theirs are gathered and
+  // the remaining rounds go over those alone.
+  let gathered: GatheredStreams | null = null;
   while (searching > 0) {
-    sweepStreams(problem, rows, sums);
+    if (!gathered) {
+      let searchingStreams = 0;
+      for (let j = 0; j < m; j++) if (sums.request[j] === PASS) searchingStreams += searched[j];
+      if (4 * searchingStreams < allStreams) gathered = gatherStreams(problem, rows, sums, searched);
+    }
+    if (gathered) passGathered(gathered, sums);
+    else sweepStreams(problem, rows, sums);
     searching = 0;
     for (let j = 0; j < m; j++) {
       if (sums.request[j] !== PASS) continue;
