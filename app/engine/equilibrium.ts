@@ -175,6 +175,7 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   let budget = settings.maxIterations;
   // The first stage's solution tells the cost scale that θ_finish is measured against.
   view.cutoff = FIRST_STAGE_CUTOFF;
+  if (!settings.warmStartWaits && !settings.loadBounds) firstGuess(view, curves, startTheta, w, workspace);
   const first = logitNewton(view, startTheta, w, workspace, 1e-3 * view.totalDemand, budget, true);
   view.cutoff = CONTINUATION_CUTOFF;
   iterations += first.iterations;
@@ -208,6 +209,30 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
     fromTheta = Math.min(theta * THETA_FACTOR, baseFinishTheta * FINISH_ATTEMPTS[Math.min(attempt + 1, FINISH_ATTEMPTS.length - 1)].thetaScale);
   }
   throw new Error("unreachable");
+}
+
+/**
+ * Share of capacity at which `firstGuess` prices a site that logit would overfill. Tried on
+ * generated national instances (5 seeds, choice and optimum): 0.8 cut the first stage's time by
+ * about a quarter in 9 of 10 runs; 0.9 and 0.95 less, 0.7 slowed the choice.
+ */
+const FIRST_GUESS_LOAD = 0.8;
+
+/**
+ * Site costs to start the first stage from, in place of empty sites. From empty sites logit sends
+ * each area's demand to its nearest sites, far beyond their capacity, and Newton on the costs
+ * climbs out slowly: near empty a site's load rises steeply with its cost, so the linear model
+ * asks for small steps (national instance: seven full steps that cut the residual by half in all,
+ * then ten damped ones). One fixed-point step first — each site's cost at the inflow logit sends
+ * it from empty, capped at FIRST_GUESS_LOAD of its capacity — starts Newton with overfilled sites
+ * already dear (first stage: 43 → 27 evaluations on the national command-line file's optimum).
+ */
+function firstGuess(view: CostView, curves: SiteCostCurve[], theta: number, w: Float64Array, workspace: LogitWorkspace): void {
+  evaluateLogit(view, theta, w, workspace);
+  for (let j = 0; j < view.m; j++) {
+    if (!Number.isFinite(w[j])) continue;
+    w[j] = curves[j].cost(Math.min(workspace.inflow[j], FIRST_GUESS_LOAD * curves[j].capacity));
+  }
 }
 
 function annotate(outcome: CurveSolveOutcome, ruleName: string): CurveSolveOutcome {
