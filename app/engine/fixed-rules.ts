@@ -30,6 +30,7 @@
  * Infinity for that site's wait and for the total cost, instead of throwing.
  */
 
+import { flowArray } from "./flow-pool";
 import { balkingCost, balkingShare, reservationRange } from "./outside-option";
 import type { Allocation, LineProblem, SiteWaitModel, SolveDiagnostics } from "./problem";
 
@@ -575,7 +576,7 @@ export function solveFixedShares(
 ): FixedRuleSolution {
   const { tolerance, maxIterations } = { ...DEFAULT_OPTIONS, ...options };
   const { n, m, demand, outsideCost, outsideSpread, travelCost, sites, siteIds, sourceIds } = problem;
-  const flow = new Float64Array(n * m);
+  const flow = flowArray(n * m);
   const balked = new Float64Array(n);
   const siteInflow = new Float64Array(m);
   const siteWait = new Float64Array(m);

@@ -24,6 +24,7 @@
  */
 import type { CostView } from "./logit-newton";
 import { luSolveInPlace } from "./dense-linear";
+import { flowArray } from "./flow-pool";
 import { reservationRange } from "./outside-option";
 import { cheapestSite, lowestCost, nearestSites, sitesWithin } from "./nearest-sites";
 
@@ -68,7 +69,7 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
   const lists = nearestSites(pairCost, n, m);
   const tie: SourceTie[] = initialStructure(view, w, theta);
-  const flow = new Float64Array(n * m);
+  const flow = flowArray(n * m);
   const balked = new Float64Array(n);
   const siteCost = new Float64Array(m);
   const load = new Float64Array(m);
@@ -153,14 +154,21 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
       }
       const used = siteCost[t.sites[0]] + pairCost[row + t.sites[0]];
       if (cheapest < used - tolerance) {
+        // Sites already tied with this source can differ by up to the cycle test's tolerance in
+        // `buildGroups` (exact ties kept around a cycle): only a site not yet tied is a change,
+        // else the same structure came back round after round and the finish gave up.
+        let added = false;
         for (let j = 0; j < m; j++) {
           if (siteCost[j] + pairCost[row + j] < used - tolerance && !t.sites.includes(j)) {
             t.sites.push(j);
             t.forced.add(j);
+            added = true;
           }
         }
-        t.sites.sort((a, b) => a - b);
-        changed = true;
+        if (added) {
+          t.sites.sort((a, b) => a - b);
+          changed = true;
+        }
       }
       if (Number.isFinite(o) && outsideSpread[i] === 0 && !t.outsideTie && used > o + tolerance) {
         t.outsideTie = true;
