@@ -551,7 +551,10 @@ export function logitNewton(
           const inverse = view.inverses[j];
           const above = w[j] - inverse.emptyCost;
           if (inverse.bounds.lower > 0 || !(above > 0) || w[j] + ws.step[j] >= inverse.emptyCost) continue;
-          const chord = ws.load[j] / above;
+          // Never steeper than the site's own steepest slope: a site a hair above its empty
+          // cost (w − e ≈ 1e-31 once) gave a chord of ~1e28, and Cholesky's pivot floor, relative
+          // to the largest diagonal entry, then flattened every other site's step to nothing.
+          const chord = Math.min(ws.load[j] / above, inverse.maxLoadSlope);
           if (!(chord > ws.loadSlope[j] * (1 + 1e-9))) continue;
           ws.loadSlope[j] = chord;
           crossing++;

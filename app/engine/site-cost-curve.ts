@@ -63,7 +63,7 @@ export interface LoadBounds {
 export class SiteInverse {
   readonly emptyCost: number;
   /** Slope dx/dw used below the empty cost, and the largest slope ever reported. */
-  private readonly maxLoadSlope: number;
+  readonly maxLoadSlope: number;
   private guess = 0;
   /** The last point where the inversion evaluated the curve's slope, and the slope there. */
   private slopeAt = NaN;
