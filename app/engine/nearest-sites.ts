@@ -116,7 +116,9 @@ export function sortedRow(lists: NearestSites, pairCost: Float64Array, m: number
   if (known >= 0) return known;
   const row = i * m;
   const start = lists.rowsUsed;
-  if (start + m > lists.rowSites.length) [lists.rowSites, lists.rowCosts] = grownPair(lists.rowSites, lists.rowCosts, start + m);
+  // Room for every row at once: memory is only touched where rows are written (the operating
+  // system maps pages on first use), and growing by copies cost ~60 ms on a national instance.
+  if (start + m > lists.rowSites.length) [lists.rowSites, lists.rowCosts] = grownPair(lists.rowSites, lists.rowCosts, Math.max(start + m, lists.count.length * m));
   const keys = rowKeys(m);
   const words = new Uint32Array(keys.buffer, 0, 2 * m);
   const mask = indexMask(m);
