@@ -65,7 +65,22 @@ interface Group {
   level: number;
 }
 
-export function wardropFinish(view: CostView, w: Float64Array, theta: number, maxIterations = Infinity, maxRounds = 40): FinishOutcome {
+/**
+ * Relative mismatch up to which a pair closing a cycle of the forest counts as an exact tie and is
+ * kept (`buildGroups`). Exact ties (sites at one place, symmetric layouts) agree to rounding; a
+ * looser value is a last resort for regions with many sites close together (see
+ * `solveWardropOnCurves`), where cycles agree to ~1e-8 of the costs but are not exact.
+ */
+export const EXACT_CYCLE = 1e-10;
+
+export function wardropFinish(
+  view: CostView,
+  w: Float64Array,
+  theta: number,
+  maxIterations = Infinity,
+  maxRounds = 40,
+  cycleTolerance = EXACT_CYCLE,
+): FinishOutcome {
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
   const lists = nearestSites(pairCost, n, m);
   const tie: SourceTie[] = initialStructure(view, w, theta);
@@ -82,7 +97,7 @@ export function wardropFinish(view: CostView, w: Float64Array, theta: number, ma
   // round that corrected a few sources, and then start from their solution.
   const solvedBefore = new Map<number, SolvedGroup>();
   for (let round = 1; round <= maxRounds; round++) {
-    const groups = buildGroups(view, tie, sourceOffset, w);
+    const groups = buildGroups(view, tie, sourceOffset, w, cycleTolerance);
     if (groups === null) continue; // inconsistent ties were dropped; rebuild
     let pruned = false;
     let unbalanced = 0;
@@ -223,7 +238,7 @@ function initialStructure(view: CostView, w: Float64Array, theta: number): Sourc
  * exact tie, kept for the maximum-entropy split) or is dropped. Returns null when something was
  * dropped, so the caller rebuilds.
  */
-function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Array, w: Float64Array): Group[] | null {
+function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Array, w: Float64Array, cycleTolerance: number): Group[] | null {
   const { n, m, pairCost, outsideCost } = view;
   // Nodes: sources 0..n−1, sites n..n+m−1, ground n+m.
   const ground = n + m;
@@ -334,7 +349,7 @@ function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Arra
     const i = edgeSource[edge];
     const site = edgeSite[edge];
     const t = tie[i];
-    const scale = 1e-10 * (1 + Math.abs(potential[i]));
+    const scale = cycleTolerance * (1 + Math.abs(potential[i]));
     if (site < 0) {
       if (Math.abs(potential[i] - outsideCost[i]) > scale) {
         t.outsideTie = false;
