@@ -190,6 +190,7 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   budget -= first.iterations;
   const baseFinishTheta = Math.max(startTheta, FINISH_SCALE / costScaleOf(view, workspace));
   let fromTheta = Math.min(startTheta * THETA_FACTOR, baseFinishTheta);
+  let closest: CurveSolveOutcome | null = null;
   for (let attempt = 0; attempt < FINISH_ATTEMPTS.length; attempt++) {
     const last = attempt === FINISH_ATTEMPTS.length - 1;
     const finishTheta = baseFinishTheta * FINISH_ATTEMPTS[attempt].thetaScale;
@@ -206,12 +207,19 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
     budget -= finish.iterations;
     if (finish.ok) {
       const result = finishOutcome(problem, curves, view, finish.flow, finish.balked, finish.siteCost, settings, iterations, warnings);
-      if (result.diagnostics.converged || last || budget <= 0) return annotate(result, ruleName);
-    } else if (last || budget <= 0) {
-      warnings.push(`${ruleName}: the exact finish failed (${finish.message}); the logit approximation at θ = ${theta.toExponential(2)} is reported.`);
-      evaluateLogit(view, theta, w, workspace);
-      const { flow, balked } = logitAllocation(view, workspace);
-      return annotate(finishOutcome(problem, curves, view, flow, balked, w, settings, iterations, warnings), ruleName);
+      if (result.diagnostics.converged) return annotate(result, ruleName);
+      // A finished structure short of the tolerance: kept in case no later attempt does better.
+      if (!closest || result.diagnostics.relativeGap < closest.diagnostics.relativeGap) closest = result;
+    }
+    if (last || budget <= 0) {
+      if (!closest) {
+        warnings.push(`${ruleName}: the exact finish failed (${finish.message}); the logit approximation at θ = ${theta.toExponential(2)} is reported.`);
+        evaluateLogit(view, theta, w, workspace);
+        const { flow, balked } = logitAllocation(view, workspace);
+        closest = finishOutcome(problem, curves, view, flow, balked, w, settings, iterations, warnings);
+      }
+      closest.diagnostics.iterations = iterations;
+      return annotate(closest, ruleName);
     }
     // Retry from a sharper logit solution (the same θ solved tighter, then larger θ).
     fromTheta = Math.min(theta * THETA_FACTOR, baseFinishTheta * FINISH_ATTEMPTS[Math.min(attempt + 1, FINISH_ATTEMPTS.length - 1)].thetaScale);
