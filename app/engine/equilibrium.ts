@@ -30,7 +30,8 @@ const FINISH_SCALE = 1e5;
  * at 1e-3 of demand saved three Newton steps but read a wrong structure often enough (national
  * instances: the finish then spent 8 rounds before the retry) that 1e-6 comes first; a tight
  * solve at very large θ took 170 damped Newton steps on a national scenario, so larger θ comes
- * only when the structure read off is still wrong.
+ * only when the structure read off is still wrong. `cycleTolerance`: how closely a cycle of tied
+ * pairs must agree to be kept as exact ties (`wardropFinish`).
  */
 const FINISH_ATTEMPTS = [
   { thetaScale: 1, handover: 1e-6, cycleTolerance: EXACT_CYCLE },

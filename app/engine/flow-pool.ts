@@ -26,7 +26,9 @@ export function flowArray(length: number): Float64Array {
 
 /** Hands an array back for `flowArray`: the caller must never read or write it again. */
 export function recycleFlowArray(array: Float64Array): void {
-  if (array.length < SMALLEST_KEPT || spare.includes(array) || array.buffer instanceof SharedArrayBuffer) return;
+  // (A browser page that is not cross-origin isolated has no SharedArrayBuffer at all.)
+  const shared = typeof SharedArrayBuffer !== "undefined" && array.buffer instanceof SharedArrayBuffer;
+  if (array.length < SMALLEST_KEPT || spare.includes(array) || shared) return;
   if (spare.length >= KEPT) spare.shift();
   spare.push(array);
 }

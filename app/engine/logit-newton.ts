@@ -155,31 +155,18 @@ class CandidateSites {
     for (let i = 0; i < n; i++) {
       this.rowStart[i] = stored;
       if (!(demand[i] > 0)) continue;
-      // The list is in increasing pair cost and no site costs less than lowestSiteCost, so once
-      // lowestSiteCost + pair cost reaches the cheapest so far, no later entry can be cheaper.
       let sites = lists.sites;
       let costs = lists.costs;
       let from = i * lists.perSource;
       let to = from + lists.count[i];
-      let cheapest = Infinity;
-      for (let k = from; k < to; k++) {
-        const c = costs[k];
-        if (lowestSiteCost + c >= cheapest) break;
-        const g = w[sites[k]] + c;
-        if (g < cheapest) cheapest = g;
-      }
+      let cheapest = cheapestOnList(sites, costs, from, to, w, lowestSiteCost, Infinity);
       // Sites off the list cost at least lowestSiteCost + bound: read the whole row (sorted) only if that could matter.
       if (lowestSiteCost + lists.bound[i] <= cheapest + margin) {
         from = sortedRow(lists, pairCost, m, i);
         to = from + lists.rowCount[i];
         sites = lists.rowSites;
         costs = lists.rowCosts;
-        for (let k = from; k < to; k++) {
-          const c = costs[k];
-          if (lowestSiteCost + c >= cheapest) break;
-          const g = w[sites[k]] + c;
-          if (g < cheapest) cheapest = g;
-        }
+        cheapest = cheapestOnList(sites, costs, from, to, w, lowestSiteCost, cheapest);
       }
       if (cheapest === Infinity) continue;
       if (stored + m > this.sites.length) [this.sites, this.costs] = grownPair(this.sites, this.costs, stored + m);
@@ -200,6 +187,21 @@ class CandidateSites {
     this.margin = margin;
     this.pairCost = pairCost;
   }
+}
+
+/**
+ * The lowest w_j + c over list entries from..to−1 (in increasing pair cost c), starting from
+ * `cheapest`: once `lowest` (no site costs less) + c reaches the cheapest so far, no later entry
+ * can be cheaper.
+ */
+function cheapestOnList(sites: Int32Array, costs: Float64Array, from: number, to: number, w: Float64Array, lowest: number, cheapest: number): number {
+  for (let k = from; k < to; k++) {
+    const c = costs[k];
+    if (lowest + c >= cheapest) break;
+    const g = w[sites[k]] + c;
+    if (g < cheapest) cheapest = g;
+  }
+  return cheapest;
 }
 
 /** The candidate lists' skin, in logit widths (see `marginFor`); lists wider than CANDIDATE_STALE widths are rebuilt. */
