@@ -26,11 +26,17 @@ import { balkingCost, expectedPatientCost } from "./outside-option";
 /** Σ f·(wait + travel) + Σ balkers' reservation costs, in weeks-equivalent per week. */
 export function allocationTotalCost(problem: LineProblem, allocation: Allocation, siteWait: Float64Array): number {
   const { n, m, demand, outsideCost, outsideSpread, travelCost } = problem;
+  const rows = allocation.rows;
+  const dense = rows ? null : allocation.flow;
   let total = 0;
   for (let i = 0; i < n; i++) {
     const row = i * m;
-    for (let j = 0; j < m; j++) {
-      const flow = allocation.flow[row + j];
+    // Rows when the allocation has them (`flow-rows.ts`: the same pairs in the same order, less the zeros).
+    const from = rows ? rows.start[i] : 0;
+    const to = rows ? rows.start[i + 1] : m;
+    for (let k = from; k < to; k++) {
+      const j = rows ? rows.sites[k] : k;
+      const flow = rows ? rows.flows[k] : (dense as Float64Array)[row + k];
       if (flow > 0) total += flow * (siteWait[j] + travelCost[row + j]);
     }
     total += balkingCost(allocation.balked[i], demand[i], outsideCost[i], outsideSpread[i]);
@@ -57,6 +63,8 @@ export function relativeGap(
   siteToll?: Float64Array,
 ): GapTerms {
   const { n, m, demand, outsideCost, outsideSpread, travelCost } = problem;
+  const rows = allocation.rows;
+  const dense = rows ? null : allocation.flow;
   let actual = 0;
   let excess = 0;
   for (let i = 0; i < n; i++) {
@@ -68,8 +76,11 @@ export function relativeGap(
     }
     let served = 0;
     let routeExcess = 0;
-    for (let j = 0; j < m; j++) {
-      const flow = allocation.flow[row + j];
+    const from = rows ? rows.start[i] : 0;
+    const to = rows ? rows.start[i + 1] : m;
+    for (let k = from; k < to; k++) {
+      const j = rows ? rows.sites[k] : k;
+      const flow = rows ? rows.flows[k] : (dense as Float64Array)[row + k];
       if (flow <= 0) continue;
       const g = siteCost[j] + (siteToll ? siteToll[j] : 0) + travelCost[row + j];
       served += flow;

@@ -12,6 +12,7 @@
 import type { Allocation, LineProblem, SolveDiagnostics } from "./problem";
 import { NoSteadyStateError } from "./problem";
 import { relativeGap } from "./allocation-cost";
+import { allocationFromRows, allocationLoads } from "./flow-rows";
 import { type CostView, LogitWorkspace, THETA_FACTOR, costScaleOf, evaluateLogit, initialTheta, logitContinuation, logitNewton } from "./logit-newton";
 import { type SiteCostCurve, SiteInverse, waitCurve } from "./site-cost-curve";
 import { EXACT_CYCLE, wardropFinish } from "./wardrop-finish";
@@ -144,13 +145,6 @@ export function buildCostView(
   };
 }
 
-export function siteLoads(problem: LineProblem, flow: Float64Array): Float64Array {
-  const { n, m } = problem;
-  const load = new Float64Array(m);
-  for (let i = 0; i < n; i++) for (let j = 0; j < m; j++) load[j] += flow[i * m + j];
-  return load;
-}
-
 export interface CurveSolveOutcome {
   allocation: Allocation;
   load: Float64Array;
@@ -177,7 +171,7 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
   const workspace = new LogitWorkspace(n, m);
   let iterations = 0;
   if (view.totalDemand <= 0 || m === 0) {
-    return finishOutcome(problem, curves, view, new Float64Array(n * m), new Float64Array(n), null, settings, 0, warnings);
+    return finishOutcome(problem, curves, view, { flow: new Float64Array(n * m), balked: new Float64Array(n) }, null, settings, 0, warnings);
   }
   // Continuation: θ up by factors of THETA_FACTOR from a smooth start to θ_finish = FINISH_SCALE / cost scale.
   const startTheta = initialTheta(view, w);
@@ -207,7 +201,8 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
     iterations += finish.iterations;
     budget -= finish.iterations;
     if (finish.ok) {
-      const result = finishOutcome(problem, curves, view, finish.flow, finish.balked, finish.siteCost, settings, iterations, warnings);
+      const allocation = allocationFromRows(view.m, finish.rows, finish.balked);
+      const result = finishOutcome(problem, curves, view, allocation, finish.siteCost, settings, iterations, warnings);
       if (result.diagnostics.converged) return annotate(result, ruleName);
       // A finished structure short of the tolerance: kept in case no later attempt does better.
       if (!closest || result.diagnostics.relativeGap < closest.diagnostics.relativeGap) closest = result;
@@ -216,8 +211,7 @@ export function solveWardropOnCurves(problem: LineProblem, curves: SiteCostCurve
       if (!closest) {
         warnings.push(`${ruleName}: the exact finish failed (${finish.message}); the logit approximation at θ = ${theta.toExponential(2)} is reported.`);
         evaluateLogit(view, theta, w, workspace);
-        const { flow, balked } = logitAllocation(view, workspace);
-        closest = finishOutcome(problem, curves, view, flow, balked, w, settings, iterations, warnings);
+        closest = finishOutcome(problem, curves, view, logitAllocation(view, workspace), w, settings, iterations, warnings);
       }
       closest.diagnostics.iterations = iterations;
       return annotate(closest, ruleName);
@@ -266,19 +260,17 @@ function finishOutcome(
   problem: LineProblem,
   curves: SiteCostCurve[],
   view: CostView,
-  flow: Float64Array,
-  balked: Float64Array,
+  allocation: Allocation,
   siteCost: Float64Array | null,
   settings: NormalisedOptions,
   iterations: number,
   warnings: string[],
 ): CurveSolveOutcome {
-  const load = siteLoads(problem, flow);
+  const load = allocationLoads(allocation, problem.n, problem.m);
   // At a volume bound the site's cost is the solved one: the curve's plus the bound's toll.
   const curveCost = Float64Array.from(load, (x, j) =>
     siteCost && view.inverses[j].atBound(siteCost[j]) ? siteCost[j] : x > 0 ? curves[j].cost(x) : view.inverses[j].emptyCost,
   );
-  const allocation = { flow, balked };
   const gap = relativeGap(problem, allocation, curveCost, settings.siteToll).relativeGap;
   return {
     allocation,

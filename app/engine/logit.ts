@@ -27,9 +27,9 @@ import {
   buildCostView,
   logitAllocation,
   normaliseOptions,
-  siteLoads,
 } from "./equilibrium";
 import { allocationTotalCost } from "./allocation-cost";
+import { allocationLoads } from "./flow-rows";
 import { LogitWorkspace, evaluateLogit, initialTheta, logitContinuation } from "./logit-newton";
 import { waitCurve } from "./site-cost-curve";
 
@@ -47,7 +47,7 @@ export function solveLogit(problem: LineProblem, theta: number, options: SolveOp
   const path = logitContinuation(view, w, workspace, Math.min(initialTheta(view, w), theta), theta, 1e-13 * view.totalDemand, settings.maxIterations);
   const iterations = path.iterations;
   const allocation = logitAllocation(view, workspace);
-  const load = siteLoads(problem, allocation.flow);
+  const load = allocationLoads(allocation, problem.n, problem.m);
   const siteWait = Float64Array.from(load, (x, j) => problem.sites[j].wait(Math.max(x, 0)));
 
   // Fisk gap: compare the split with the logit response to the waits it produces.

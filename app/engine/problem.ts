@@ -7,6 +7,7 @@
  *
  * Units: time in weeks, distance in km, cost in weeks-equivalent (one week of waiting = 1).
  */
+import type { FlowRows } from "./flow-rows";
 
 /**
  * How the routine-class queue wait at one site grows with the routine inflow routed to it.
@@ -56,6 +57,11 @@ export interface Allocation {
   flow: Float64Array;
   /** Referrals/week from source i that leave for the outside option (private care or go without). */
   balked: Float64Array;
+  /**
+   * The same flows as rows of their non-zero entries, when the solver made them so (`flow-rows.ts`):
+   * readers over every pair visit these instead, and `flow` is then made only when read.
+   */
+  rows?: FlowRows;
 }
 
 export interface SolveDiagnostics {

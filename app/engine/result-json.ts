@@ -32,8 +32,9 @@ export function jsonAtDepth(value: unknown, gap: string, depth: number): string 
 export function solveScenarioAsJson(scenario: Scenario, options: SolveScenarioOptions, gap: string): ScenarioResult<RenderedRuleReport> {
   return solveScenarioWith(scenario, options, (solved, build, solution, depth) => {
     const report = ruleReportJson(solved, build, solution, gap, depth);
-    // The report is text now: the next rule on this thread may reuse the flow array's memory.
-    recycleFlowArray(solution.allocation.flow);
+    // The report is text now: the next rule on this thread may reuse the flow array's memory
+    // (an allocation kept as rows has none, unless something read it, and is left alone).
+    if (!solution.allocation.rows) recycleFlowArray(solution.allocation.flow);
     return report;
   });
 }

@@ -17,6 +17,7 @@
 import type { LineBuild } from "./build-problem";
 import { allocationTotalCost } from "./allocation-cost";
 import { ByteWriter, utf8 } from "./byte-writer";
+import { allocationLoads, type FlowRows } from "./flow-rows";
 import { balkingCost } from "./outside-option";
 import type { Allocation, SolveDiagnostics } from "./problem";
 import type { Scenario } from "./scenario";
@@ -248,7 +249,7 @@ function assembleReport(
   const allocation = solution.allocation;
   const warnings = [...solution.diagnostics.warnings];
 
-  const routineInflow = columnSums(allocation.flow, n, m);
+  const routineInflow = allocationLoads(allocation, n, m);
 
   const siteWaitUrgent = new Float64Array(m);
   const siteWaitRoutine = new Float64Array(m);
@@ -299,7 +300,7 @@ function assembleReport(
   });
 
   let balked = 0;
-  const pairs: PairArrays = { m, routineFlow: allocation.flow, km: problem.km, travelCost: problem.travelCost, siteWaitRoutine, siteWaitUrgent };
+  const pairs: PairArrays = { m, rows: allocation.rows ?? null, routineFlow: allocation.rows ? null : allocation.flow, km: problem.km, travelCost: problem.travelCost, siteWaitRoutine, siteWaitUrgent };
   const reported: ReportedFlows = { sites: new Int32Array(m), flows: new Float64Array(m), totals: new Float64Array(4) };
   const sources: SourceReport[] = [];
   const sourceCosts: { cost: number; demand: number; decile: number | null; balked: number; wait: number; km: number; served: number }[] = [];
@@ -407,20 +408,12 @@ function assembleReport(
  * thrown back several times on its first run (the code after the loop had not run yet).
  */
 
-/** Σ_i flow[i·m + j] for every site j (summed in source order). */
-function columnSums(flow: Float64Array, n: number, m: number): Float64Array {
-  const sums = new Float64Array(m);
-  for (let i = 0; i < n; i++) {
-    const row = i * m;
-    for (let j = 0; j < m; j++) sums[j] += flow[row + j];
-  }
-  return sums;
-}
-
 /** What a report reads pair by pair: routine flows, km and travel costs (n·m), and each site's waits. */
 interface PairArrays {
   m: number;
-  routineFlow: Float64Array;
+  /** Routine flows as rows of their non-zero entries (`flow-rows.ts`), or else dense (n·m). */
+  rows: FlowRows | null;
+  routineFlow: Float64Array | null;
   km: Float64Array;
   travelCost: Float64Array;
   siteWaitRoutine: Float64Array;
@@ -437,16 +430,33 @@ interface ReportedFlows {
 
 /** Fills `reported` with source i's flows above FLOW_REPORT_THRESHOLD and their totals; returns how many. */
 function reportedFlows(pairs: PairArrays, i: number, urgentSite: number, urgentDemand: number, reported: ReportedFlows): number {
-  const { m, routineFlow, km, travelCost, siteWaitRoutine, siteWaitUrgent } = pairs;
+  const { m, rows, routineFlow, km, travelCost, siteWaitRoutine, siteWaitUrgent } = pairs;
   const { sites, flows, totals } = reported;
   let served = 0;
   let servedKm = 0;
   let wait = 0;
   let cost = 0;
   let count = 0;
-  for (let j = 0; j < m; j++) {
+  // Pairs in site order: every site of a dense row; from rows, the non-zero ones with the urgent
+  // site slotted in at its place (a zero routine flow adds nothing, so the sums are the same).
+  let next = rows ? rows.start[i] : 0;
+  const end = rows ? rows.start[i + 1] : m;
+  let urgentDue = rows !== null && urgentSite >= 0 && urgentDemand > 0;
+  while (next < end || urgentDue) {
+    let j: number;
+    let routine: number;
+    if (!rows) {
+      j = next++;
+      routine = (routineFlow as Float64Array)[i * m + j];
+    } else if (urgentDue && (next >= end || urgentSite <= rows.sites[next])) {
+      j = urgentSite;
+      urgentDue = false;
+      routine = next < end && rows.sites[next] === j ? rows.flows[next++] : 0;
+    } else {
+      j = rows.sites[next];
+      routine = rows.flows[next++];
+    }
     const pair = i * m + j;
-    const routine = routineFlow[pair];
     const urgent = urgentSite === j ? urgentDemand : 0;
     const flow = routine + urgent;
     if (flow <= FLOW_REPORT_THRESHOLD) continue;

@@ -24,7 +24,7 @@
  */
 import type { CostView } from "./logit-newton";
 import { luSolveInPlace } from "./dense-linear";
-import { flowArray } from "./flow-pool";
+import type { FlowRows } from "./flow-rows";
 import { reservationRange } from "./outside-option";
 import { cheapestSite, lowestCost, nearestSites, sitesWithin } from "./nearest-sites";
 
@@ -37,7 +37,8 @@ const VANISHING_AFTER = 4;
 
 export interface FinishOutcome {
   ok: boolean;
-  flow: Float64Array;
+  /** Flows of the answer, as rows of the tied pairs (empty until the last round). */
+  rows: FlowRows;
   balked: Float64Array;
   /** Site cost (wait or marginal cost) at the solution. */
   siteCost: Float64Array;
@@ -84,7 +85,7 @@ export function wardropFinish(
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
   const lists = nearestSites(pairCost, n, m);
   const tie: SourceTie[] = initialStructure(view, w, theta);
-  const flow = flowArray(n * m);
+  let rows: FlowRows = { start: new Int32Array(n + 1), sites: new Int32Array(0), flows: new Float64Array(0) };
   const balked = new Float64Array(n);
   const siteCost = new Float64Array(m);
   const load = new Float64Array(m);
@@ -102,7 +103,7 @@ export function wardropFinish(
     let pruned = false;
     let unbalanced = 0;
     if (iterations >= maxIterations) {
-      return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message: "the iteration budget ran out" };
+      return { ok: false, rows, balked, siteCost, load, rounds: round, iterations, message: "the iteration budget ran out" };
     }
     // Groups are independent systems: a round costs as many iterations as its slowest group.
     let roundIterations = 0;
@@ -130,9 +131,13 @@ export function wardropFinish(
     const allocate = (): void => {
       load.fill(0);
       for (const group of groups) for (const j of group.sites) load[j] = view.inverses[j].load(siteCost[j]);
-      flow.fill(0);
+      // One row per source, its tied sites in ascending order (sources outside every group have none).
+      const start = new Int32Array(n + 1);
+      for (const group of groups) for (const i of group.sources) start[i + 1] = tie[i].sites.length;
+      for (let i = 0; i < n; i++) start[i + 1] += start[i];
+      rows = { start, sites: new Int32Array(start[n]), flows: new Float64Array(start[n]) };
       for (const group of groups) {
-        for (const i of group.sources) writeSourceFlows(view, i, tie[i], group.level + sourceOffset[i], eta, flow, balked);
+        for (const i of group.sources) writeSourceFlows(view, i, tie[i], group.level + sourceOffset[i], eta, rows, balked);
       }
       for (let i = 0; i < n; i++) {
         const t = tie[i];
@@ -197,13 +202,13 @@ export function wardropFinish(
     }
     if (!changed) {
       allocate();
-      if (unbalanced === 0) return { ok: true, flow, balked, siteCost, load, rounds: round, iterations, message: "" };
+      if (unbalanced === 0) return { ok: true, rows, balked, siteCost, load, rounds: round, iterations, message: "" };
       message = `${unbalanced} group(s) of sites could not balance their inflow`;
-      return { ok: false, flow, balked, siteCost, load, rounds: round, iterations, message };
+      return { ok: false, rows, balked, siteCost, load, rounds: round, iterations, message };
     }
     message = "the tied structure kept changing";
   }
-  return { ok: false, flow, balked, siteCost, load, rounds: maxRounds, iterations, message: message || "too many rounds" };
+  return { ok: false, rows, balked, siteCost, load, rounds: maxRounds, iterations, message: message || "too many rounds" };
 }
 
 function initialStructure(view: CostView, w: Float64Array, theta: number): SourceTie[] {
@@ -606,10 +611,10 @@ function writeSourceFlows(
   t: SourceTie,
   u: number,
   eta: Float64Array,
-  flow: Float64Array,
+  rows: FlowRows,
   balked: Float64Array,
 ): void {
-  const { m, demand } = view;
+  const { demand } = view;
   let smallest = t.outsideTie ? 0 : Infinity;
   for (const j of t.sites) smallest = Math.min(smallest, eta[j]);
   let sum = t.outsideTie ? Math.exp(smallest) : 0;
@@ -618,7 +623,11 @@ function writeSourceFlows(
   let total = 0;
   for (const j of t.sites) {
     const f = served * Math.exp(-(eta[j] - smallest)) / sum;
-    flow[i * m + j] = f;
+    // The row keeps sites ascending: j goes after the tied sites below it.
+    let position = rows.start[i];
+    for (const k of t.sites) if (k < j) position++;
+    rows.sites[position] = j;
+    rows.flows[position] = f;
     total += f;
   }
   // Without an outside option nobody balks; elsewhere the remainder is the balkers (never negative by rounding).
