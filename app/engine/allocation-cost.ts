@@ -21,23 +21,22 @@
  * resolved.
  */
 import type { Allocation, LineProblem } from "./problem";
+import { rowsOf } from "./flow-rows";
 import { balkingCost, expectedPatientCost } from "./outside-option";
 
 /** Σ f·(wait + travel) + Σ balkers' reservation costs, in weeks-equivalent per week. */
 export function allocationTotalCost(problem: LineProblem, allocation: Allocation, siteWait: Float64Array): number {
   const { n, m, demand, outsideCost, outsideSpread, travelCost } = problem;
-  const rows = allocation.rows;
-  const dense = rows ? null : allocation.flow;
+  const rows = rowsOf(allocation, m);
+  const sites = new Int32Array(m);
+  const flows = new Float64Array(m);
   let total = 0;
   for (let i = 0; i < n; i++) {
     const row = i * m;
-    // Rows when the allocation has them (`flow-rows.ts`: the same pairs in the same order, less the zeros).
-    const from = rows ? rows.start[i] : 0;
-    const to = rows ? rows.start[i + 1] : m;
-    for (let k = from; k < to; k++) {
-      const j = rows ? rows.sites[k] : k;
-      const flow = rows ? rows.flows[k] : (dense as Float64Array)[row + k];
-      if (flow > 0) total += flow * (siteWait[j] + travelCost[row + j]);
+    const count = rows.read(i, sites, flows);
+    for (let k = 0; k < count; k++) {
+      const j = sites[k];
+      if (flows[k] > 0) total += flows[k] * (siteWait[j] + travelCost[row + j]);
     }
     total += balkingCost(allocation.balked[i], demand[i], outsideCost[i], outsideSpread[i]);
   }
@@ -63,8 +62,9 @@ export function relativeGap(
   siteToll?: Float64Array,
 ): GapTerms {
   const { n, m, demand, outsideCost, outsideSpread, travelCost } = problem;
-  const rows = allocation.rows;
-  const dense = rows ? null : allocation.flow;
+  const rows = rowsOf(allocation, m);
+  const sites = new Int32Array(m);
+  const flows = new Float64Array(m);
   let actual = 0;
   let excess = 0;
   for (let i = 0; i < n; i++) {
@@ -76,11 +76,10 @@ export function relativeGap(
     }
     let served = 0;
     let routeExcess = 0;
-    const from = rows ? rows.start[i] : 0;
-    const to = rows ? rows.start[i + 1] : m;
-    for (let k = from; k < to; k++) {
-      const j = rows ? rows.sites[k] : k;
-      const flow = rows ? rows.flows[k] : (dense as Float64Array)[row + k];
+    const count = rows.read(i, sites, flows);
+    for (let k = 0; k < count; k++) {
+      const j = sites[k];
+      const flow = flows[k];
       if (flow <= 0) continue;
       const g = siteCost[j] + (siteToll ? siteToll[j] : 0) + travelCost[row + j];
       served += flow;

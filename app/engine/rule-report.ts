@@ -17,7 +17,7 @@
 import type { LineBuild } from "./build-problem";
 import { allocationTotalCost } from "./allocation-cost";
 import { ByteWriter, utf8 } from "./byte-writer";
-import { allocationLoads, type FlowRows } from "./flow-rows";
+import { allocationLoads, type FlowRows, rowsOf } from "./flow-rows";
 import { balkingCost } from "./outside-option";
 import type { Allocation, SolveDiagnostics } from "./problem";
 import type { Scenario } from "./scenario";
@@ -300,7 +300,7 @@ function assembleReport(
   });
 
   let balked = 0;
-  const pairs: PairArrays = { m, rows: allocation.rows ?? null, routineFlow: allocation.rows ? null : allocation.flow, km: problem.km, travelCost: problem.travelCost, siteWaitRoutine, siteWaitUrgent };
+  const pairs: PairArrays = { m, rows: rowsOf(allocation, m), rowSites: new Int32Array(m), rowFlows: new Float64Array(m), km: problem.km, travelCost: problem.travelCost, siteWaitRoutine, siteWaitUrgent };
   const reported: ReportedFlows = { sites: new Int32Array(m), flows: new Float64Array(m), totals: new Float64Array(4) };
   const sources: SourceReport[] = [];
   const sourceCosts: { cost: number; demand: number; decile: number | null; balked: number; wait: number; km: number; served: number }[] = [];
@@ -411,9 +411,10 @@ function assembleReport(
 /** What a report reads pair by pair: routine flows, km and travel costs (n·m), and each site's waits. */
 interface PairArrays {
   m: number;
-  /** Routine flows as rows of their non-zero entries (`flow-rows.ts`), or else dense (n·m). */
-  rows: FlowRows | null;
-  routineFlow: Float64Array | null;
+  /** Routine flows, source by source (`flow-rows.ts`), read into the two scratch rows (room for m each). */
+  rows: FlowRows;
+  rowSites: Int32Array;
+  rowFlows: Float64Array;
   km: Float64Array;
   travelCost: Float64Array;
   siteWaitRoutine: Float64Array;
@@ -430,31 +431,28 @@ interface ReportedFlows {
 
 /** Fills `reported` with source i's flows above FLOW_REPORT_THRESHOLD and their totals; returns how many. */
 function reportedFlows(pairs: PairArrays, i: number, urgentSite: number, urgentDemand: number, reported: ReportedFlows): number {
-  const { m, rows, routineFlow, km, travelCost, siteWaitRoutine, siteWaitUrgent } = pairs;
+  const { m, rows, rowSites, rowFlows, km, travelCost, siteWaitRoutine, siteWaitUrgent } = pairs;
   const { sites, flows, totals } = reported;
   let served = 0;
   let servedKm = 0;
   let wait = 0;
   let cost = 0;
   let count = 0;
-  // Pairs in site order: every site of a dense row; from rows, the non-zero ones with the urgent
-  // site slotted in at its place (a zero routine flow adds nothing, so the sums are the same).
-  let next = rows ? rows.start[i] : 0;
-  const end = rows ? rows.start[i + 1] : m;
-  let urgentDue = rows !== null && urgentSite >= 0 && urgentDemand > 0;
+  // Pairs in site order: the row's, with the urgent site slotted in at its place when the row
+  // leaves it out (a zero routine flow adds nothing, so the sums are those of a dense scan).
+  const end = rows.read(i, rowSites, rowFlows);
+  let next = 0;
+  let urgentDue = urgentSite >= 0 && urgentDemand > 0;
   while (next < end || urgentDue) {
     let j: number;
     let routine: number;
-    if (!rows) {
-      j = next++;
-      routine = (routineFlow as Float64Array)[i * m + j];
-    } else if (urgentDue && (next >= end || urgentSite <= rows.sites[next])) {
+    if (urgentDue && (next >= end || urgentSite <= rowSites[next])) {
       j = urgentSite;
       urgentDue = false;
-      routine = next < end && rows.sites[next] === j ? rows.flows[next++] : 0;
+      routine = next < end && rowSites[next] === j ? rowFlows[next++] : 0;
     } else {
-      j = rows.sites[next];
-      routine = rows.flows[next++];
+      j = rowSites[next];
+      routine = rowFlows[next++];
     }
     const pair = i * m + j;
     const urgent = urgentSite === j ? urgentDemand : 0;

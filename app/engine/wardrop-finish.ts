@@ -24,7 +24,7 @@
  */
 import type { CostView } from "./logit-newton";
 import { luSolveInPlace } from "./dense-linear";
-import type { FlowRows } from "./flow-rows";
+import { type FlowRows, storedRows } from "./flow-rows";
 import { reservationRange } from "./outside-option";
 import { cheapestSite, lowestCost, nearestSites, sitesWithin } from "./nearest-sites";
 
@@ -85,7 +85,7 @@ export function wardropFinish(
   const { n, m, demand, outsideCost, outsideSpread, pairCost } = view;
   const lists = nearestSites(pairCost, n, m);
   const tie: SourceTie[] = initialStructure(view, w, theta);
-  let rows: FlowRows = { start: new Int32Array(n + 1), sites: new Int32Array(0), flows: new Float64Array(0) };
+  let rows: FlowRows = storedRows(new Int32Array(n + 1), new Int32Array(0), new Float64Array(0));
   const balked = new Float64Array(n);
   const siteCost = new Float64Array(m);
   const load = new Float64Array(m);
@@ -135,10 +135,12 @@ export function wardropFinish(
       const start = new Int32Array(n + 1);
       for (const group of groups) for (const i of group.sources) start[i + 1] = tie[i].sites.length;
       for (let i = 0; i < n; i++) start[i + 1] += start[i];
-      rows = { start, sites: new Int32Array(start[n]), flows: new Float64Array(start[n]) };
+      const sites = new Int32Array(start[n]);
+      const flows = new Float64Array(start[n]);
       for (const group of groups) {
-        for (const i of group.sources) writeSourceFlows(view, i, tie[i], group.level + sourceOffset[i], eta, rows, balked);
+        for (const i of group.sources) writeSourceFlows(view, i, tie[i], group.level + sourceOffset[i], eta, start[i], sites, flows, balked);
       }
+      rows = storedRows(start, sites, flows);
       for (let i = 0; i < n; i++) {
         const t = tie[i];
         if (t.allBalk || t.sites.length === 0) balked[i] = Number.isFinite(outsideCost[i]) ? demand[i] : 0;
@@ -611,7 +613,9 @@ function writeSourceFlows(
   t: SourceTie,
   u: number,
   eta: Float64Array,
-  rows: FlowRows,
+  rowStart: number,
+  sites: Int32Array,
+  flows: Float64Array,
   balked: Float64Array,
 ): void {
   const { demand } = view;
@@ -624,10 +628,10 @@ function writeSourceFlows(
   for (const j of t.sites) {
     const f = served * Math.exp(-(eta[j] - smallest)) / sum;
     // The row keeps sites ascending: j goes after the tied sites below it.
-    let position = rows.start[i];
+    let position = rowStart;
     for (const k of t.sites) if (k < j) position++;
-    rows.sites[position] = j;
-    rows.flows[position] = f;
+    sites[position] = j;
+    flows[position] = f;
     total += f;
   }
   // Without an outside option nobody balks; elsewhere the remainder is the balkers (never negative by rounding).
