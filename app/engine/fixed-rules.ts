@@ -30,7 +30,7 @@
  * Infinity for that site's wait and for the total cost, instead of throwing.
  */
 
-import { flowArray } from "./flow-pool";
+import { allocationFromRows, type FlowRows } from "./flow-rows";
 import { balkingCost, balkingShare, reservationRange } from "./outside-option";
 import type { Allocation, LineProblem, SiteWaitModel, SolveDiagnostics } from "./problem";
 
@@ -576,7 +576,6 @@ export function solveFixedShares(
 ): FixedRuleSolution {
   const { tolerance, maxIterations } = { ...DEFAULT_OPTIONS, ...options };
   const { n, m, demand, outsideCost, outsideSpread, travelCost, sites, siteIds, sourceIds } = problem;
-  const flow = flowArray(n * m);
   const balked = new Float64Array(n);
   const siteInflow = new Float64Array(m);
   const siteWait = new Float64Array(m);
@@ -694,11 +693,14 @@ export function solveFixedShares(
   // The flows, source by source, from each site's final waits. The indifferent patients' share
   // (`weight`) only matters for streams whose patients at the bracket's two ends differ — a
   // bracket left wide, or ties at a sharp threshold. Usually there are none (each root is found
-  // exactly), so the flows are written first as if every weight were 0, which is then exact, and
-  // only when such a stream turns up are the weights worked out (a sweep more) and the flows
-  // written again.
-  const flows: FlowWriting = { flow, siteInflow, balked, assigned: new Float64Array(n), overloaded, waitLow, waitHigh, weight };
-  if (!writeFlows(problem, rows, flows, true)) {
+  // exactly), so the inflows and balking are summed first as if every weight were 0, which is
+  // then exact, and only when such a stream turns up are the weights worked out (a sweep more)
+  // and the sums made again. The flows themselves are stored nowhere: `fixedRuleRows` works a
+  // source's out from the same numbers whenever they are read (capacity share has a flow on
+  // every pair, 22 MB of fresh memory on a national instance).
+  const final: FinalWaits = { overloaded, waitLow, waitHigh, weight };
+  const flows: FlowWriting = { final, siteInflow, balked, assigned: new Float64Array(n) };
+  if (!sumFlows(problem, rows, flows, true)) {
     // Patients served at the bracket's ends; the root lies between. A sharp threshold crossed
     // inside the bracket is the indifferent group: only part of it stays, so interpolate
     // between the two ends to make the inflow consistent with the bracket.
@@ -712,7 +714,7 @@ export function solveFixedShares(
       weight[j] = servedLow > servedHigh ? Math.min(1, Math.max(0, (target - servedHigh) / (servedLow - servedHigh))) : 0;
     }
     siteInflow.fill(0);
-    writeFlows(problem, rows, flows, false);
+    sumFlows(problem, rows, flows, false);
   }
 
   // Sources the rule sends nowhere (no allowed site) balk, or, without an outside option, have
@@ -734,10 +736,11 @@ export function solveFixedShares(
   }
   for (let j = 0; j < m; j++) if (!overloaded[j]) siteWait[j] = siteInflow[j] >= capacity[j] ? Infinity : sites[j].wait(siteInflow[j]);
 
-  const { totalCost, relativeGap } = fixedRuleCost(problem, shares, flow, siteWait);
+  const flowRows = fixedRuleRows(problem, shares, rangeLow, rangeHigh, final);
+  const { totalCost, relativeGap } = fixedRuleCost(problem, shares, flowRows, siteWait);
   return {
     rule,
-    allocation: { flow, balked },
+    allocation: allocationFromRows(m, flowRows, balked),
     siteInflow,
     siteWait,
     totalCost: steadyState ? totalCost : Infinity,
@@ -747,28 +750,68 @@ export function solveFixedShares(
   };
 }
 
-/** What `writeFlows` reads (final waits, weights) and writes (flows, inflows, balking, each source's total share). */
-interface FlowWriting {
-  flow: Float64Array;
-  siteInflow: Float64Array;
-  balked: Float64Array;
-  assigned: Float64Array;
+/** Per site, what the flows follow from: overloaded or not, the waits at the final bracket's ends, the indifferent patients' share. */
+interface FinalWaits {
   overloaded: Uint8Array;
   waitLow: Float64Array;
   waitHigh: Float64Array;
   weight: Float64Array;
 }
 
+/** What `sumFlows` reads (final waits) and writes (inflows, balking, each source's total share). */
+interface FlowWriting {
+  final: FinalWaits;
+  siteInflow: Float64Array;
+  balked: Float64Array;
+  assigned: Float64Array;
+}
+
 /**
- * Every stream's patients who stay, source by source, and the sums of those (site inflows, each
- * source's patients who leave, `siteInflow` starting at 0). With `stopAtDifference` it gives up
- * (false) at the first stream whose patients at the bracket's two ends differ, where the weight
- * of the indifferent patients matters: flows written so far are then to be written again.
+ * Patients of a stream (`stream` referrals/week from a source to site j, travel cost `travel`,
+ * reservation range [low, high]) who stay, at the final waits; NaN when `exactOnly` and the
+ * patients at the bracket's two ends differ (the weight is then needed).
  */
-function writeFlows(problem: LineProblem, rows: StreamRows, writing: FlowWriting, stopAtDifference: boolean): boolean {
+function stayingAt(final: FinalWaits, j: number, stream: number, free: boolean, travel: number, low: number, high: number, exactOnly: boolean): number {
+  if (!free) return stream;
+  if (final.overloaded[j]) return 0; // patients with an outside option all leave an infinitely long queue
+  const stayHigh = streamStaying(low - travel, high - travel, final.waitHigh[j], false);
+  const stayLow = streamStaying(low - travel, high - travel, final.waitLow[j], true);
+  if (exactOnly && stayLow !== stayHigh) return NaN;
+  return stream * (stayHigh + final.weight[j] * (stayLow - stayHigh));
+}
+
+/** A fixed rule's flows, source by source, worked out from the final waits (`stayingAt`) when read: one per stream. */
+function fixedRuleRows(problem: LineProblem, shares: FixedShares, rangeLow: Float64Array, rangeHigh: Float64Array, final: FinalWaits): FlowRows {
+  const { m, demand, outsideCost, travelCost } = problem;
+  const shareSites = new Int32Array(m);
+  const shareValues = new Float64Array(m);
+  return {
+    read(i, sites, flows) {
+      const count = shares.row(i, shareSites, shareValues);
+      const free = outsideCost[i] !== Infinity;
+      let written = 0;
+      for (let k = 0; k < count; k++) {
+        const stream = demand[i] * shareValues[k];
+        if (!(stream > 0)) continue;
+        const j = shareSites[k];
+        sites[written] = j;
+        flows[written++] = stayingAt(final, j, stream, free, travelCost[i * m + j], rangeLow[i], rangeHigh[i], false);
+      }
+      return written;
+    },
+  };
+}
+
+/**
+ * Sums every stream's patients who stay, source by source: site inflows (`siteInflow` starting
+ * at 0), each source's patients who leave and its total share. With `stopAtDifference` it gives
+ * up (false) at the first stream whose patients at the bracket's two ends differ, where the
+ * weight of the indifferent patients matters: the sums are then to be made again.
+ */
+function sumFlows(problem: LineProblem, rows: StreamRows, writing: FlowWriting, stopAtDifference: boolean): boolean {
   const { n, m, demand, outsideCost, travelCost } = problem;
   const { shares, sites: rowSites, values: rowShares, rangeLow, rangeHigh } = rows;
-  const { flow, siteInflow, balked, assigned, overloaded, waitLow, waitHigh, weight } = writing;
+  const { final, siteInflow, balked, assigned } = writing;
   for (let i = 0; i < n; i++) {
     const row = i * m;
     const low = rangeLow[i];
@@ -782,17 +825,8 @@ function writeFlows(problem: LineProblem, rows: StreamRows, writing: FlowWriting
       const stream = demand[i] * rowShares[k];
       if (!(stream > 0)) continue;
       const j = rowSites[k];
-      let staying: number;
-      if (!free) staying = stream;
-      else if (overloaded[j]) staying = 0; // patients with an outside option all leave an infinitely long queue
-      else {
-        const travel = travelCost[row + j];
-        const stayHigh = streamStaying(low - travel, high - travel, waitHigh[j], false);
-        const stayLow = streamStaying(low - travel, high - travel, waitLow[j], true);
-        if (stopAtDifference && stayLow !== stayHigh) return false;
-        staying = stream * (stayHigh + weight[j] * (stayLow - stayHigh));
-      }
-      flow[row + j] = staying;
+      const staying = stayingAt(final, j, stream, free, travelCost[row + j], low, high, stopAtDifference);
+      if (Number.isNaN(staying)) return false;
       leaving += stream - staying;
       siteInflow[j] += staying;
     }
@@ -816,12 +850,15 @@ function writeFlows(problem: LineProblem, rows: StreamRows, writing: FlowWriting
 export function fixedRuleCost(
   problem: LineProblem,
   shares: FixedShares,
-  flow: Float64Array,
+  rows: FlowRows,
   siteWait: Float64Array,
 ): { totalCost: number; relativeGap: number } {
   const { n, m, demand, outsideCost, outsideSpread, travelCost } = problem;
   const rowSites = new Int32Array(m);
   const rowShares = new Float64Array(m);
+  // The flows' rows hold one entry per stream with patients, in the shares' order.
+  const flowSites = new Int32Array(m);
+  const flows = new Float64Array(m);
   let actual = 0;
   let best = 0;
   for (let i = 0; i < n; i++) {
@@ -829,6 +866,8 @@ export function fixedRuleCost(
     const s = outsideSpread[i];
     const row = i * m;
     const count = shares.row(i, rowSites, rowShares);
+    rows.read(i, flowSites, flows);
+    let next = 0;
     let assigned = 0;
     if (o === Infinity) {
       // No outside option: every patient stays, so the actual and the best cost are the same.
@@ -838,7 +877,7 @@ export function fixedRuleCost(
         if (!(stream > 0)) continue;
         const pair = row + rowSites[k];
         const cost = siteWait[rowSites[k]] + travelCost[pair];
-        const staying = flow[pair];
+        const staying = flows[next++];
         actual += staying > 0 ? staying * cost : 0;
         best += stream * cost;
       }
@@ -851,7 +890,7 @@ export function fixedRuleCost(
         if (!(stream > 0)) continue;
         const pair = row + rowSites[k];
         const cost = siteWait[rowSites[k]] + travelCost[pair];
-        const staying = flow[pair];
+        const staying = flows[next++];
         const leaving = Math.max(0, stream - staying);
         actual += (staying > 0 ? staying * cost : 0) + streamBalkersCost(leaving, stream, low, high, o, s);
         const optimalStaying = stream * (cost <= low ? 1 : cost >= high ? 0 : 1 - (cost - low) / (high - low));

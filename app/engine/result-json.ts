@@ -15,7 +15,6 @@
  * never hold a raw line break), so a report written alone at its depth is the same text.
  */
 import { utf8 } from "./byte-writer";
-import { recycleFlowArray } from "./flow-pool";
 import { indentAtDepth, type RuleReportJson, ruleReportJson } from "./rule-report";
 import type { Scenario } from "./scenario";
 import { type LineReport, type ScenarioResult, solveScenarioWith, type SolveScenarioOptions } from "./solve-scenario";
@@ -30,13 +29,7 @@ export function jsonAtDepth(value: unknown, gap: string, depth: number): string 
 
 /** `solveScenario` with every rule's report written as JSON text (`gap` as JSON.stringify's third argument). */
 export function solveScenarioAsJson(scenario: Scenario, options: SolveScenarioOptions, gap: string): ScenarioResult<RenderedRuleReport> {
-  return solveScenarioWith(scenario, options, (solved, build, solution, depth) => {
-    const report = ruleReportJson(solved, build, solution, gap, depth);
-    // The report is text now: the next rule on this thread may reuse the flow array's memory
-    // (an allocation kept as rows has none, unless something read it, and is left alone).
-    if (!solution.allocation.rows) recycleFlowArray(solution.allocation.flow);
-    return report;
-  });
+  return solveScenarioWith(scenario, options, (solved, build, solution, depth) => ruleReportJson(solved, build, solution, gap, depth));
 }
 
 /**

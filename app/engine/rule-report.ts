@@ -34,6 +34,8 @@ export interface RuleSolution {
   allocation: Allocation;
   /** Routine-class wait per site (weeks). */
   siteWait: Float64Array;
+  /** Routine inflow per site, the flows summed source by source, when the solver has it (a pass over the flows fewer). */
+  siteInflow?: Float64Array;
   diagnostics: SolveDiagnostics;
   overloads?: { siteId: string; demand: number; capacity: number; shortfall: number }[];
   /** The plan's verdict; "infeasible" comes with `infeasibilities` and no allocation. */
@@ -249,7 +251,7 @@ function assembleReport(
   const allocation = solution.allocation;
   const warnings = [...solution.diagnostics.warnings];
 
-  const routineInflow = allocationLoads(allocation, n, m);
+  const routineInflow = solution.siteInflow ?? allocationLoads(allocation, n, m);
 
   const siteWaitUrgent = new Float64Array(m);
   const siteWaitRoutine = new Float64Array(m);
