@@ -68,15 +68,28 @@ export function pairKm(
   circuity: number,
   travelKm?: Record<string, Record<string, number>>,
 ): Float64Array {
+  const km = new Float64Array(sources.length * sites.length);
+  writePairKm(km, 0, sources, sites, circuity, travelKm);
+  return km;
+}
+
+/** `pairKm` written into `km` from index `offset` on (e.g. a chunk of rows of a larger array). */
+export function writePairKm(
+  km: Float64Array,
+  offset: number,
+  sources: readonly { id: string; lat: number; lon: number }[],
+  sites: readonly { id: string; lat: number; lon: number }[],
+  circuity: number,
+  travelKm?: Record<string, Record<string, number>>,
+): void {
   const n = sources.length;
   const m = sites.length;
-  const km = new Float64Array(n * m);
   const a = halfAngles(sources);
   const b = halfAngles(sites);
   const scale = 2 * EARTH_RADIUS_KM * circuity;
   for (let i = 0; i < n; i++) {
     const sinLat = a.sinLat[i], cosLat = a.cosLat[i], sinLon = a.sinLon[i], cosLon = a.cosLon[i], cosFull = a.cosFull[i];
-    const row = i * m;
+    const row = offset + i * m;
     for (let j = 0; j < m; j++) {
       const dLat = b.sinLat[j] * cosLat - b.cosLat[j] * sinLat;
       const dLon = b.sinLon[j] * cosLon - b.cosLon[j] * sinLon;
@@ -86,7 +99,6 @@ export function pairKm(
     const uploaded = travelKm?.[sources[i].id];
     if (uploaded) for (let j = 0; j < m; j++) km[row + j] = uploaded[sites[j].id] ?? km[row + j];
   }
-  return km;
 }
 
 /** A line with more demand that must be served than capacity, for `NoSteadyStateError`. */

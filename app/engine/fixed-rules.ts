@@ -736,11 +736,10 @@ export function solveFixedShares(
   }
   for (let j = 0; j < m; j++) if (!overloaded[j]) siteWait[j] = siteInflow[j] >= capacity[j] ? Infinity : sites[j].wait(siteInflow[j]);
 
-  const flowRows = fixedRuleRows(problem, shares, rangeLow, rangeHigh, final);
-  const { totalCost, relativeGap } = fixedRuleCost(problem, shares, flowRows, siteWait);
+  const { totalCost, relativeGap } = fixedRuleCost(problem, shares, final, siteWait);
   return {
     rule,
-    allocation: allocationFromRows(m, flowRows, balked),
+    allocation: allocationFromRows(m, fixedRuleRows(problem, shares, rangeLow, rangeHigh, final), balked),
     siteInflow,
     siteWait,
     totalCost: steadyState ? totalCost : Infinity,
@@ -837,7 +836,8 @@ function sumFlows(problem: LineProblem, rows: StreamRows, writing: FlowWriting, 
 }
 
 /**
- * Total cost and relative gap of a fixed-rule allocation, stream by stream.
+ * Total cost and relative gap of a fixed-rule allocation, stream by stream, each stream's
+ * patients who stay worked out from the final waits as its flow is (`stayingAt`).
  *
  * Each stream (the patients of source i the rule sends to site j, or sends nowhere) has two
  * options: the site, at cost g = W_j + t_ij, or the outside option at their own reservation cost.
@@ -847,18 +847,15 @@ function sumFlows(problem: LineProblem, rows: StreamRows, writing: FlowWriting, 
  * former, with the choice set a fixed rule leaves: zero exactly when the balking decisions
  * are in equilibrium.
  */
-export function fixedRuleCost(
+function fixedRuleCost(
   problem: LineProblem,
   shares: FixedShares,
-  rows: FlowRows,
+  final: FinalWaits,
   siteWait: Float64Array,
 ): { totalCost: number; relativeGap: number } {
   const { n, m, demand, outsideCost, outsideSpread, travelCost } = problem;
   const rowSites = new Int32Array(m);
   const rowShares = new Float64Array(m);
-  // The flows' rows hold one entry per stream with patients, in the shares' order.
-  const flowSites = new Int32Array(m);
-  const flows = new Float64Array(m);
   let actual = 0;
   let best = 0;
   for (let i = 0; i < n; i++) {
@@ -866,8 +863,6 @@ export function fixedRuleCost(
     const s = outsideSpread[i];
     const row = i * m;
     const count = shares.row(i, rowSites, rowShares);
-    rows.read(i, flowSites, flows);
-    let next = 0;
     let assigned = 0;
     if (o === Infinity) {
       // No outside option: every patient stays, so the actual and the best cost are the same.
@@ -877,7 +872,7 @@ export function fixedRuleCost(
         if (!(stream > 0)) continue;
         const pair = row + rowSites[k];
         const cost = siteWait[rowSites[k]] + travelCost[pair];
-        const staying = flows[next++];
+        const staying = stayingAt(final, rowSites[k], stream, false, travelCost[pair], Infinity, Infinity, false);
         actual += staying > 0 ? staying * cost : 0;
         best += stream * cost;
       }
@@ -890,7 +885,7 @@ export function fixedRuleCost(
         if (!(stream > 0)) continue;
         const pair = row + rowSites[k];
         const cost = siteWait[rowSites[k]] + travelCost[pair];
-        const staying = flows[next++];
+        const staying = stayingAt(final, rowSites[k], stream, true, travelCost[pair], low, high, false);
         const leaving = Math.max(0, stream - staying);
         actual += (staying > 0 ? staying * cost : 0) + streamBalkersCost(leaving, stream, low, high, o, s);
         const optimalStaying = stream * (cost <= low ? 1 : cost >= high ? 0 : 1 - (cost - low) / (high - low));

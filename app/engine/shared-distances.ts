@@ -8,7 +8,7 @@
  * itself (the same values). Each thread then registers the travel costs and lists as its own,
  * so neither computes them again (each did ~0.2 s of it on a national instance).
  */
-import { type LineDistances, lineMembers, pairKm, rememberTravelCost } from "./build-problem";
+import { type LineDistances, lineMembers, rememberTravelCost, writePairKm } from "./build-problem";
 import { type ListRows, allocateLists, fillLists, rememberLists } from "./nearest-sites";
 import type { Scenario } from "./scenario";
 
@@ -30,6 +30,8 @@ export interface DistanceWork {
 
 interface Chunk {
   lineId: string;
+  /** The line's sources and sites (indices in the scenario's lists). */
+  members: { sources: number[]; sites: number[] };
   from: number;
   to: number;
 }
@@ -38,8 +40,9 @@ interface Chunk {
 function chunksOf(scenario: Scenario): Chunk[] {
   const chunks: Chunk[] = [];
   for (const line of scenario.serviceLines) {
-    const rows = lineMembers(scenario, line.id).sources.length;
-    for (let from = 0; from < rows; from += CHUNK_ROWS) chunks.push({ lineId: line.id, from, to: Math.min(rows, from + CHUNK_ROWS) });
+    const members = lineMembers(scenario, line.id);
+    const rows = members.sources.length;
+    for (let from = 0; from < rows; from += CHUNK_ROWS) chunks.push({ lineId: line.id, members, from, to: Math.min(rows, from + CHUNK_ROWS) });
   }
   return chunks;
 }
@@ -66,17 +69,20 @@ export function distanceWork(scenario: Scenario): DistanceWork {
 }
 
 function writeChunk(scenario: Scenario, work: DistanceWork, chunk: Chunk): void {
-  const { sources, sites } = lineMembers(scenario, chunk.lineId);
-  const km = pairKm(
+  const { sources, sites } = chunk.members;
+  const m = sites.length;
+  // Straight into the shared arrays: a chunk's own km array was fresh memory (page faults) and a copy more.
+  const km = work.distances.get(chunk.lineId) as Float64Array;
+  writePairKm(
+    km,
+    chunk.from * m,
     sources.slice(chunk.from, chunk.to).map((index) => scenario.sources[index]),
     sites.map((index) => scenario.providers[index]),
     scenario.circuity,
     scenario.travelKm ?? undefined,
   );
-  const m = sites.length;
-  (work.distances.get(chunk.lineId) as Float64Array).set(km, chunk.from * m);
   const { travelCost, lists } = work.travel.get(chunk.lineId) as { travelCost: Float64Array; lists: ListRows };
-  for (let pair = chunk.from * m; pair < chunk.to * m; pair++) travelCost[pair] = km[pair - chunk.from * m] / scenario.kmPerWeek;
+  for (let pair = chunk.from * m; pair < chunk.to * m; pair++) travelCost[pair] = km[pair] / scenario.kmPerWeek;
   fillLists(lists, travelCost, m, chunk.from, chunk.to);
 }
 
