@@ -9,7 +9,8 @@ import { describe, expect, it } from "vitest";
 import { allocationTotalCost, relativeGap } from "../../../app/engine/allocation-cost";
 import { solveChoice } from "../../../app/engine/equilibrium";
 import { solveOptimum } from "../../../app/engine/optimum";
-import { lineProblem, mmc } from "./support/line-problem";
+import { balkingCost } from "../../../app/engine/outside-option";
+import { lineProblem, mmc, seeded } from "./support/line-problem";
 
 // Source 1 reaches the M/M/1 site (μ = 4/wk) at travel 0.5; source 2 reaches nothing.
 const sharp = lineProblem({ demand: [2, 3], travel: [[0.5], [Infinity]], sites: [mmc(1, 4)], outsideCost: [10, 8], outsideSpread: [0, 0] });
@@ -55,4 +56,64 @@ describe("relative gap with a source that has no allowed site", () => {
       }
     }
   });
+});
+
+/**
+ * The gap reads each source's cheapest option from its nearest-site list (`cheapestSite`), not by
+ * scanning the whole row. Reference: the definition above computed with a scan of every site, on
+ * random problems with more sites than a list holds (48), forbidden pairs, exact ties and tolls.
+ * The two must agree to the last bit (the same site costs, added in the same order).
+ */
+describe("relative gap from the nearest-site lists equals the definition with a full scan", () => {
+  function scanned(problem: ReturnType<typeof lineProblem>, allocation: { flow: Float64Array; balked: Float64Array }, siteCost: Float64Array, toll?: Float64Array) {
+    const { n, m, travelCost, outsideCost, outsideSpread, demand } = problem;
+    let actual = 0;
+    let excess = 0;
+    for (let i = 0; i < n; i++) {
+      let cheapest = Infinity;
+      for (let j = 0; j < m; j++) cheapest = Math.min(cheapest, siteCost[j] + (toll ? toll[j] : 0) + travelCost[i * m + j]);
+      let served = 0;
+      let route = 0;
+      for (let j = 0; j < m; j++) {
+        const flow = allocation.flow[i * m + j];
+        if (flow <= 0) continue;
+        const g = siteCost[j] + (toll ? toll[j] : 0) + travelCost[i * m + j];
+        served += flow;
+        actual += flow * g;
+        route += flow * (g - cheapest);
+      }
+      const balked = allocation.balked[i];
+      const o = outsideCost[i];
+      actual += balkingCost(balked, demand[i], o, outsideSpread[i]);
+      // Sharp outside options only (spread 0): balkers pay o, the served `cheapest`.
+      excess += route + (cheapest <= o ? balked * (o - cheapest) : served * (cheapest - o));
+    }
+    return { actual, excess };
+  }
+
+  for (const seed of [1, 2, 3, 4, 5, 6]) {
+    it(`random problem ${seed}: 25 sources × 70 sites`, () => {
+      const random = seeded(seed);
+      const n = 25;
+      const m = 70;
+      // Costs on a coarse grid make exact ties common; a tenth of the pairs are forbidden.
+      const travel = Array.from({ length: n }, () => Array.from({ length: m }, () => (random() < 0.1 ? Infinity : Math.round(random() * 40) / 8)));
+      const problem = lineProblem({ demand: Array.from({ length: n }, () => 1 + random()), travel, sites: Array.from({ length: m }, () => mmc(2, 5)), outsideCost: 6, outsideSpread: 0 });
+      const flow = new Float64Array(n * m);
+      const balked = new Float64Array(n);
+      for (let i = 0; i < n; i++) {
+        const j = Math.floor(random() * m);
+        if (travel[i][j] < Infinity) flow[i * m + j] = problem.demand[i] * 0.7;
+        balked[i] = problem.demand[i] - flow[i * m + j];
+      }
+      const siteCost = Float64Array.from({ length: m }, () => Math.round(random() * 16) / 8);
+      const toll = Float64Array.from({ length: m }, () => (random() < 0.5 ? 0 : Math.round(random() * 8) / 8));
+      for (const t of [undefined, toll]) {
+        const gap = relativeGap(problem, { flow, balked }, siteCost, t);
+        const reference = scanned(problem, { flow, balked }, siteCost, t);
+        expect(gap.actual).toBe(reference.actual);
+        expect(gap.excess).toBe(reference.excess);
+      }
+    });
+  }
 });
