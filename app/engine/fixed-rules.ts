@@ -31,6 +31,7 @@
  */
 
 import { allocationFromRows, type FlowRows } from "./flow-rows";
+import { nearestSites } from "./nearest-sites";
 import { balkingCost, balkingShare, reservationRange } from "./outside-option";
 import type { Allocation, LineProblem, SiteWaitModel, SolveDiagnostics } from "./problem";
 
@@ -98,13 +99,27 @@ export interface FixedShares {
  */
 export function nearestRuleShares(problem: LineProblem): FixedShares {
   const { n, m, km, travelCost } = problem;
+  // Travel cost is km / kmPerWeek, so it never falls as km rises: the site with the fewest km has
+  // the lowest travel cost, and only the sites tied at that cost need their km compared. They
+  // lead the source's nearest-site list (sorted by travel cost), unless the tie runs past its end.
+  const lists = nearestSites(travelCost, n, m);
   const nearest = new Int32Array(n);
   for (let i = 0; i < n; i++) {
+    const base = i * lists.perSource;
+    const end = base + lists.count[i];
     let best = -1;
-    for (let j = 0; j < m; j++) {
-      const pair = i * m + j;
-      if (!Number.isFinite(travelCost[pair])) continue;
-      if (best < 0 || km[pair] < km[i * m + best]) best = j;
+    if (end > base && lists.costs[base] < lists.bound[i]) {
+      const lowest = lists.costs[base];
+      for (let k = base; k < end && lists.costs[k] === lowest; k++) {
+        const j = lists.sites[k];
+        if (best < 0 || km[i * m + j] < km[i * m + best] || (km[i * m + j] === km[i * m + best] && j < best)) best = j;
+      }
+    } else if (end > base) {
+      for (let j = 0; j < m; j++) {
+        const pair = i * m + j;
+        if (!Number.isFinite(travelCost[pair])) continue;
+        if (best < 0 || km[pair] < km[i * m + best]) best = j;
+      }
     }
     nearest[i] = best;
   }

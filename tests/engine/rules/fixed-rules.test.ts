@@ -8,6 +8,7 @@ import {
   solveFixedShares,
   solveNearest,
 } from "~/engine/fixed-rules";
+import { seededRandom } from "../../support/random";
 import { lineProblem, mmcSite, mmcWait, randomProblem } from "./rules-support";
 
 describe("nearest with balking: one M/M/1 site", () => {
@@ -175,6 +176,30 @@ describe("nearest picks the fewest km among allowed pairs", () => {
       sites: [mmcSite(1, 4), mmcSite(1, 4), mmcSite(1, 4)],
     });
     expect(Array.from(nearestShares(problem))).toEqual([0, 1, 0, 0, 0, 1, 1, 0, 0]);
+  });
+
+  // The rule reads the sites tied at the lowest travel cost from each source's nearest-site list;
+  // the reference is the rule's definition, a scan of every site (fewest km, ties to the site
+  // listed first, disallowed pairs skipped). Km on a coarse grid make ties common; with 60 sites
+  // (lists hold 48) and, for some sources, more than 48 sites at the least distance, the tie can
+  // run past a list's end.
+  it("picks the same site as a scan of every site, with ties, disallowed pairs and long lists", () => {
+    const random = seededRandom(17);
+    for (let trial = 0; trial < 20; trial++) {
+      const n = 12;
+      const m = 60;
+      const km = Array.from({ length: n }, (_, i) =>
+        Array.from({ length: m }, () => (random() < 0.1 ? NaN : i % 4 === 0 && random() < 0.9 ? 5 : Math.round(random() * 12) / 2)),
+      );
+      const problem = lineProblem({ demand: new Array(n).fill(1), outsideCost: new Array(n).fill(5), km, kmPerWeek: 15, sites: Array.from({ length: m }, () => mmcSite(1, 4)) });
+      const expected = new Array<number>(n * m).fill(0);
+      for (let i = 0; i < n; i++) {
+        let best = -1;
+        for (let j = 0; j < m; j++) if (Number.isFinite(km[i][j]) && (best < 0 || km[i][j] < km[i][best])) best = j;
+        if (best >= 0) expected[i * m + best] = 1;
+      }
+      expect(Array.from(nearestShares(problem))).toEqual(expected);
+    }
   });
 });
 
