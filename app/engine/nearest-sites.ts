@@ -152,6 +152,47 @@ export function sortedRow(lists: NearestSites, pairCost: Float64Array, m: number
   return start;
 }
 
+/**
+ * Indices 0..count−1 ordered by keys[index], ties by index: the order of
+ * `indices.sort((a, b) => keys[a] - keys[b] || a - b)` for keys that are not NaN, without a
+ * comparator called from native code (slow while the code is still cold). Negative keys (rare:
+ * pairs forced first) are ordered with that comparator; the others by the packed-key native sort
+ * and insertion pass of `sortedRow`.
+ */
+export function keyOrder(keys: Float64Array, count: number): Int32Array {
+  const order = new Int32Array(count);
+  const negative: number[] = [];
+  const packed = new Float64Array(count);
+  const words = new Uint32Array(packed.buffer);
+  const mask = indexMask(count);
+  let used = 0;
+  for (let index = 0; index < count; index++) {
+    if (!(keys[index] >= 0)) {
+      negative.push(index);
+      continue;
+    }
+    packed[used] = keys[index];
+    const word = 2 * used + LOW_WORD;
+    words[word] = (words[word] & ~mask) | index;
+    used++;
+  }
+  negative.sort((a, b) => keys[a] - keys[b] || a - b);
+  for (let k = 0; k < negative.length; k++) order[k] = negative[k];
+  packed.subarray(0, used).sort();
+  const start = negative.length;
+  for (let k = 0; k < used; k++) {
+    const index = words[2 * k + LOW_WORD] & mask;
+    const key = keys[index];
+    let b = start + k - 1;
+    while (b >= start && (keys[order[b]] > key || (keys[order[b]] === key && order[b] > index))) {
+      order[b + 1] = order[b];
+      b--;
+    }
+    order[b + 1] = index;
+  }
+  return order;
+}
+
 /** Index of a double's low 32-bit word in a Uint32Array view (0 on little-endian machines). */
 const LOW_WORD = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1 ? 0 : 1;
 

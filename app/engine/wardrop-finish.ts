@@ -26,7 +26,7 @@ import type { CostView } from "./logit-newton";
 import { luSolveInPlace } from "./dense-linear";
 import { type FlowRows, storedRows } from "./flow-rows";
 import { reservationRange } from "./outside-option";
-import { cheapestSite, lowestCost, nearestSites, sitesWithin } from "./nearest-sites";
+import { cheapestSite, keyOrder, lowestCost, nearestSites, sitesWithin } from "./nearest-sites";
 
 /** An option within this many 1/θ of a source's cheapest counts as tied (logit share ≥ ~1e-10). */
 const TIE_WIDTH = 23;
@@ -281,7 +281,7 @@ function buildGroups(view: CostView, tie: SourceTie[], sourceOffset: Float64Arra
       edgeKey[e++] = t.forcedTie ? -1 : Math.abs(cheapest - outsideCost[i]);
     }
   }
-  const order = Array.from({ length: edgeCount }, (_, k) => k).sort((a, b) => edgeKey[a] - edgeKey[b] || a - b);
+  const order = keyOrder(edgeKey, edgeCount);
   // The forest's edges as node pairs, then as adjacency lists (compressed rows).
   const treeA = new Int32Array(n + m);
   const treeB = new Int32Array(n + m);

@@ -7,7 +7,7 @@
  * and site costs near zero (which force the whole-row reading).
  */
 import { describe, expect, it } from "vitest";
-import { NEAREST_LIST_SIZE, cheapestSite, lowestCost, nearestSites, sitesWithin, sortedRow } from "../../../app/engine/nearest-sites";
+import { NEAREST_LIST_SIZE, cheapestSite, keyOrder, lowestCost, nearestSites, sitesWithin, sortedRow } from "../../../app/engine/nearest-sites";
 import { seeded } from "./support/line-problem";
 
 function awkwardPairCosts(seed: number, n: number, m: number): Float64Array {
@@ -87,5 +87,31 @@ describe("nearest-site lists", () => {
     // Both readings were exercised: rows never read whole with tight bounds, rows read whole with loose ones.
     expect(Array.from(nearestSites(tight, n, m).rowStart).filter((start) => start < 0).length).toBeGreaterThan(0);
     expect(Array.from(nearestSites(loose, n, m).rowStart).filter((start) => start >= 0).length).toBeGreaterThan(0);
+  });
+});
+
+/**
+ * `keyOrder`: indices ordered by key, ties by index, as Array.prototype.sort with the comparator
+ * (a, b) => keys[a] − keys[b] || a − b orders them (ECMA-262 §23.1.3.30: the comparator defines
+ * the order; ours is a total order on non-NaN keys, so the result is unique). Keys with exact
+ * ties, −1s, zeros, subnormals and differences of one ulp, where the packed native sort alone
+ * would misorder.
+ */
+describe("keyOrder", () => {
+  const reference = (keys: Float64Array) => Array.from({ length: keys.length }, (_, k) => k).sort((a, b) => keys[a] - keys[b] || a - b);
+  it("matches the comparator sort on keys with ties, negatives, zeros, subnormals and one-ulp steps", () => {
+    const random = seeded(99);
+    for (const count of [0, 1, 2, 17, 300, 5000]) {
+      const keys = Float64Array.from({ length: count }, () => {
+        const r = random();
+        if (r < 0.1) return -1;
+        if (r < 0.3) return 0;
+        if (r < 0.35) return 5e-324 * Math.floor(random() * 4);
+        const base = Math.round(random() * 20) / 4;
+        // One ulp above a grid value, or the grid value itself.
+        return random() < 0.3 ? base + base * Number.EPSILON : base;
+      });
+      expect(Array.from(keyOrder(keys, count))).toEqual(reference(keys));
+    }
   });
 });
