@@ -30,7 +30,7 @@
  * Infinity for that site's wait and for the total cost, instead of throwing.
  */
 
-import { allocationFromRows, type FlowRows } from "./flow-rows";
+import { allocationFromRows, denseFlows, type FlowRows } from "./flow-rows";
 import { nearestSites } from "./nearest-sites";
 import { balkingCost, balkingShare, reservationRange } from "./outside-option";
 import type { Allocation, LineProblem, SiteWaitModel, SolveDiagnostics } from "./problem";
@@ -185,14 +185,8 @@ export function denseRuleShares(m: number, dense: Float64Array): FixedShares {
 
 /** A rule's shares as an n·m array (row-major): for tests and display, never on the solving path. */
 export function sharesArray(n: number, m: number, shares: FixedShares): Float64Array {
-  const dense = new Float64Array(n * m);
-  const sites = new Int32Array(m);
-  const values = new Float64Array(m);
-  for (let i = 0; i < n; i++) {
-    const count = shares.row(i, sites, values);
-    for (let k = 0; k < count; k++) dense[i * m + sites[k]] = values[k];
-  }
-  return dense;
+  // Shares come row by row as flows do.
+  return denseFlows({ read: (i, sites, values) => shares.row(i, sites, values) }, n, m);
 }
 
 /** The nearest rule's shares as an n·m array (`nearestRuleShares`). */
@@ -887,7 +881,7 @@ function fixedRuleCost(
         if (!(stream > 0)) continue;
         const pair = row + rowSites[k];
         const cost = siteWait[rowSites[k]] + travelCost[pair];
-        const staying = stayingAt(final, rowSites[k], stream, false, travelCost[pair], Infinity, Infinity, false);
+        const staying = stream; // with no outside option every patient stays (`stayingAt`)
         actual += staying > 0 ? staying * cost : 0;
         best += stream * cost;
       }
