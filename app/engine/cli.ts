@@ -136,4 +136,8 @@ process.stdout.on("error", (error: NodeJS.ErrnoException) => {
   if (error.code !== "EPIPE") throw error;
   process.exit(process.exitCode ?? 0);
 });
-process.exitCode = await main(process.argv.slice(2));
+const exitCode = await main(process.argv.slice(2));
+process.exitCode = exitCode;
+// Exit once stdout and stderr have taken everything written (the callbacks run after the writes
+// before them), without tearing down the solver thread and the heaps (~0.07 s on a national file).
+process.stderr.write("", () => process.stdout.write("", () => process.exit(exitCode)));
