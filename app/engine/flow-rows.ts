@@ -24,9 +24,8 @@ export interface FlowRows {
 }
 
 /** Rows stored as compressed sparse rows: source i's flows are entries start[i] … start[i + 1] − 1. */
-export function storedRows(start: Int32Array, sites: Int32Array, flows: Float64Array): FlowRows & { start: Int32Array } {
+export function storedRows(start: Int32Array, sites: Int32Array, flows: Float64Array): FlowRows {
   return {
-    start,
     read(i, sitesOut, flowsOut) {
       const from = start[i];
       const count = start[i + 1] - from;
